@@ -1,0 +1,100 @@
+"""What checks exist: name, view consumed, data needed, statistic kind.
+
+Every check module registers its checks here at import time with :func:`register`.
+The battery (``battery/plan.py``) reads this registry to choose checks and their
+parameters for a data budget; ``rngassay catalog`` lists it.
+
+Views (defined in ``rngassay.intake.views``):
+
+- ``bytes``     uint8 array, stream order
+- ``words32``   uint32 array (little-endian words from the byte stream unless the input format says otherwise)
+- ``words64``   uint64 array
+- ``bits``      packed bits: a uint8 array, most significant bit of each byte first
+                (``np.unpackbits`` order); a check receives ``(packed, n_bits)``
+- ``uniforms``  float64 array in [0, 1)
+- ``integers``  int64 array of outcomes in [0, k) (``k`` passed as a parameter)
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+from .result import StatKind
+
+VIEWS = ("bytes", "words32", "words64", "bits", "uniforms", "integers")
+FAMILIES = ("classic", "bits", "transform", "categorical")
+
+
+@dataclass(frozen=True)
+class CheckSpec:
+    """Registry entry of one check.
+
+    key           -- stable identifier of the method, lower case, e.g. "gap", "serial-overlapping"
+    family        -- one of FAMILIES
+    title         -- the published method name, e.g. "gap test (Knuth 3.3.2 C)"
+    view          -- the view the check consumes (one of VIEWS)
+    kind          -- "continuous" or "discrete" statistic under H0
+    func          -- the pure function: func(data, **params) -> CheckResult
+    values_needed -- values_needed(params) -> number of view values one run needs
+    default_params-- default_params(n_available) -> list of parameter dicts to run when
+                     n_available view values are available (several = several variants,
+                     e.g. serial d=2 and d=3); empty list = not enough data
+    both_tails    -- True when a too-small statistic is evidence too (p_left is meaningful)
+    source        -- citation of the method definition
+    """
+
+    key: str
+    family: str
+    title: str
+    view: str
+    kind: StatKind
+    func: Callable[..., Any]
+    values_needed: Callable[[dict], int]
+    default_params: Callable[[int], list[dict]]
+    both_tails: bool = False
+    source: str = ""
+    notes: str = ""
+    extra: dict[str, Any] = field(default_factory=dict)
+
+
+REGISTRY: dict[str, CheckSpec] = {}
+
+
+def register(spec: CheckSpec) -> CheckSpec:
+    if spec.view not in VIEWS:
+        raise ValueError(f"unknown view {spec.view!r} for check {spec.key!r}")
+    if spec.family not in FAMILIES:
+        raise ValueError(f"unknown family {spec.family!r} for check {spec.key!r}")
+    if spec.key in REGISTRY and REGISTRY[spec.key] is not spec:
+        raise ValueError(f"check {spec.key!r} registered twice")
+    REGISTRY[spec.key] = spec
+    return spec
+
+
+def load_all() -> dict[str, CheckSpec]:
+    """Import every check module so that the registry is complete, and return it."""
+    import importlib
+    import pkgutil
+
+    from . import bits, classic, transform
+
+    for pkg in (classic, bits, transform):
+        for mod in pkgutil.iter_modules(pkg.__path__):
+            if not mod.name.startswith("_"):
+                importlib.import_module(f"{pkg.__name__}.{mod.name}")
+    return REGISTRY
+
+
+def check_id(key: str, params: dict) -> str:
+    """Human identifier: the method key plus its parameters, e.g. 'gap a=0 b=0.5 t=16'."""
+    if not params:
+        return key
+    parts = [f"{k}={_fmt(v)}" for k, v in params.items()]
+    return f"{key} " + " ".join(parts)
+
+
+def _fmt(v: Any) -> str:
+    if isinstance(v, float):
+        return f"{v:g}"
+    return str(v)

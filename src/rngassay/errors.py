@@ -1,0 +1,26 @@
+"""The one error type the command line turns into a single line and exit code 2."""
+
+from __future__ import annotations
+
+
+class InputError(Exception):
+    """Bad input or usage: what is wrong, where, and what to do about it.
+
+    ``what``  -- the problem, e.g. "float outside [0, 1): 1.0"
+    ``where`` -- the place, e.g. "data.txt line 12" or "stdin byte offset 4096" (may be empty)
+    ``hint``  -- what the user can do, e.g. "remove the value or rescale the data" (may be empty)
+    """
+
+    def __init__(self, what: str, where: str = "", hint: str = ""):
+        self.what = what
+        self.where = where
+        self.hint = hint
+        super().__init__(self.line())
+
+    def line(self) -> str:
+        parts = [self.what]
+        if self.where:
+            parts[0] = f"{self.where}: {self.what}"
+        if self.hint:
+            parts.append(self.hint)
+        return "; ".join(parts)
