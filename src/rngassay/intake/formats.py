@@ -1,0 +1,267 @@
+"""Input formats: decoding and validation of a byte stream into values.
+
+Format names follow numpy's dtype vocabulary:
+
+- ``u1``                      raw bytes (the default)
+- ``<u2 >u2 <u4 >u4 <u8 >u8`` unsigned words, little- or big-endian
+- ``<f4 <f8``                 IEEE floats that claim to be uniform on [0, 1)
+- ``text``                    numbers separated by white space (spaces, tabs, newlines): floats in
+                              [0, 1), or, with ``--range LO:HI``, integers in that inclusive range
+
+Decoders are incremental: :meth:`Decoder.feed` takes chunks of any size (a value may be split across
+chunk boundaries anywhere) and returns the values completed so far; :meth:`Decoder.finish` checks
+that nothing is left over. Every value is validated; a bad one raises
+:class:`rngassay.errors.InputError` naming the byte offset (binary) or line (text).
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError
+
+BINARY_FORMATS = ("u1", "<u2", ">u2", "<u4", ">u4", "<u8", ">u8", "<f4", "<f8")
+FORMATS = BINARY_FORMATS + ("text",)
+
+_FLOAT_HINT = "uniform floats must lie in [0, 1); check the producer's scaling or use another --format"
+
+
+@dataclass(frozen=True)
+class Format:
+    """A parsed input format.
+
+    name      -- one of FORMATS
+    dtype     -- numpy dtype of a decoded value (float64 or int64 for text)
+    itemsize  -- bytes per value in the stream (0 for text)
+    kind      -- "bytes", "words", "floats", "text-floats" or "text-integers"
+    lo, hi    -- inclusive range of text integers (only for "text-integers")
+    """
+
+    name: str
+    dtype: np.dtype
+    itemsize: int
+    kind: str
+    lo: int | None = None
+    hi: int | None = None
+
+    @property
+    def is_binary(self) -> bool:
+        return self.itemsize > 0
+
+    @property
+    def is_float(self) -> bool:
+        return self.kind in ("floats", "text-floats")
+
+    @property
+    def bits_per_value(self) -> int:
+        """Resolution of one value in bits (words: their width; floats: mantissa + 1)."""
+        if self.kind in ("bytes", "words"):
+            return self.itemsize * 8
+        if self.name == "<f4":
+            return 24
+        if self.kind in ("floats", "text-floats"):
+            return 53
+        assert self.lo is not None and self.hi is not None
+        return max(1, int(self.hi - self.lo).bit_length())
+
+    def describe(self) -> str:
+        if self.kind == "text-integers":
+            return f"text integers {self.lo}..{self.hi}"
+        return self.name
+
+
+def parse_range(spec: str) -> tuple[int, int]:
+    """Parse ``LO:HI`` (inclusive, integers, LO < HI)."""
+    m = re.fullmatch(r"\s*([+-]?\d+)\s*:\s*([+-]?\d+)\s*", spec or "")
+    if not m:
+        raise InputError(
+            f"bad --range {spec!r}", "", "write it as LO:HI with integers, e.g. --range 1:6 for a die"
+        )
+    lo, hi = int(m.group(1)), int(m.group(2))
+    if hi <= lo:
+        raise InputError(f"bad --range {spec!r}: HI must be greater than LO", "", "e.g. --range 1:59")
+    if hi - lo >= 2**62:
+        raise InputError(f"bad --range {spec!r}: too wide", "", "use a binary word format for wide ranges")
+    return lo, hi
+
+
+def parse_format(name: str | None, value_range: str | tuple[int, int] | None = None) -> Format:
+    """Turn a ``--format`` name (and an optional ``--range``) into a :class:`Format`."""
+    name = name or "u1"
+    if name not in FORMATS:
+        raise InputError(
+            f"unknown format {name!r}",
+            "",
+            "use one of " + ", ".join(FORMATS) + " (see `rngassay catalog`)",
+        )
+    rng = parse_range(value_range) if isinstance(value_range, str) else value_range
+    if name == "text":
+        if rng is not None:
+            return Format("text", np.dtype(np.int64), 0, "text-integers", rng[0], rng[1])
+        return Format("text", np.dtype(np.float64), 0, "text-floats")
+    if rng is not None:
+        raise InputError(
+            f"--range applies to --format text only, not {name!r}", "", "drop --range or use --format text"
+        )
+    dt = np.dtype(name)
+    if name == "u1":
+        kind = "bytes"
+    elif dt.kind == "f":
+        kind = "floats"
+    else:
+        kind = "words"
+    return Format(name, dt, dt.itemsize, kind)
+
+
+class Decoder:
+    """Incremental decoder for one format. ``where`` names the source in error messages."""
+
+    def __init__(self, fmt: Format, where: str):
+        self.fmt = fmt
+        self.where = where
+        self.offset = 0  # bytes fed so far
+        self._carry = b""
+        self._line = 1  # text: line number at the start of the carry
+        self.values = 0  # values produced so far
+
+    # -- binary ---------------------------------------------------------------------------------
+    def _feed_binary(self, chunk: bytes) -> np.ndarray:
+        size = self.fmt.itemsize
+        start_offset = self.offset - len(self._carry)  # byte offset of the first byte in buf
+        buf = self._carry + chunk if self._carry else chunk
+        whole = len(buf) - len(buf) % size
+        self._carry = bytes(buf[whole:]) if whole < len(buf) else b""
+        if whole == 0:
+            return np.empty(0, dtype=self.fmt.dtype)
+        vals = np.frombuffer(buf, dtype=self.fmt.dtype, count=whole // size)
+        if self.fmt.kind == "floats":
+            self._validate_floats(vals, start_offset)
+            vals = vals.astype(np.float64)
+        return vals
+
+    def _validate_floats(self, vals: np.ndarray, start_offset: int) -> None:
+        ok = (vals >= 0) & (vals < 1)  # NaN compares False, so it fails here too
+        if ok.all():
+            return
+        i = int(np.argmin(ok))
+        v = vals[i]
+        at = f"{self.where} byte offset {start_offset + i * self.fmt.itemsize}"
+        if np.isnan(v):
+            raise InputError("NaN where a uniform float was expected", at, _FLOAT_HINT)
+        if np.isinf(v):
+            raise InputError(f"infinity ({v}) where a uniform float was expected", at, _FLOAT_HINT)
+        raise InputError(f"float outside [0, 1): {float(v)!r}", at, _FLOAT_HINT)
+
+    # -- text -------------------------------------------------------------------------------------
+    def _feed_text(self, chunk: bytes) -> np.ndarray:
+        buf = self._carry + chunk if self._carry else chunk
+        # the last token may continue in the next chunk: keep everything after the last white space
+        cut = max(buf.rfind(c) for c in (b" ", b"\n", b"\t", b"\r", b"\f", b"\v"))
+        if cut < 0:
+            self._carry = bytes(buf)
+            return np.empty(0, dtype=self.fmt.dtype)
+        body, self._carry = buf[: cut + 1], bytes(buf[cut + 1 :])
+        vals = self._parse_text(body, self._line)
+        self._line += body.count(b"\n")
+        return vals
+
+    def _parse_text(self, body: bytes, first_line: int) -> np.ndarray:
+        tokens = body.split()
+        if not tokens:
+            return np.empty(0, dtype=self.fmt.dtype)
+        try:
+            if self.fmt.kind == "text-integers":
+                vals = np.array(tokens, dtype=np.int64)
+            else:
+                vals = np.array(tokens, dtype=np.float64)
+        except (ValueError, OverflowError):
+            self._locate_bad_token(body, first_line)
+            raise  # pragma: no cover - _locate_bad_token always raises
+        if self.fmt.kind == "text-integers":
+            bad = (vals < self.fmt.lo) | (vals > self.fmt.hi)
+            if bad.any():
+                i = int(np.argmax(bad))
+                raise InputError(
+                    f"integer {int(vals[i])} outside --range {self.fmt.lo}:{self.fmt.hi}",
+                    f"{self.where} line {self._line_of_token(body, first_line, i)}",
+                    "fix the value or widen --range",
+                )
+        else:
+            ok = (vals >= 0) & (vals < 1)
+            if not ok.all():
+                i = int(np.argmin(ok))
+                v = vals[i]
+                at = f"{self.where} line {self._line_of_token(body, first_line, i)}"
+                tok = tokens[i].decode("ascii", "replace")
+                if np.isnan(v):
+                    raise InputError(f"NaN ({tok!r}) where a uniform float was expected", at, _FLOAT_HINT)
+                if np.isinf(v):
+                    raise InputError(f"infinity ({tok!r}) where a uniform float was expected", at, _FLOAT_HINT)
+                if re.fullmatch(rb"[+-]?\d+", tokens[i]):
+                    raise InputError(
+                        f"integer {tok} in text input without --range",
+                        at,
+                        "give --range LO:HI for integer outcomes (e.g. --range 1:6), or supply floats in [0, 1)",
+                    )
+                raise InputError(f"float outside [0, 1): {tok}", at, _FLOAT_HINT)
+        return vals
+
+    def _line_of_token(self, body: bytes, first_line: int, index: int) -> int:
+        for j, m in enumerate(re.finditer(rb"\S+", body)):
+            if j == index:
+                return first_line + body.count(b"\n", 0, m.start())
+        return first_line  # pragma: no cover
+
+    def _locate_bad_token(self, body: bytes, first_line: int) -> None:
+        want_int = self.fmt.kind == "text-integers"
+        for m in re.finditer(rb"\S+", body):
+            tok = m.group()
+            try:
+                int(tok) if want_int else float(tok)
+                continue
+            except ValueError:
+                pass
+            line = first_line + body.count(b"\n", 0, m.start())
+            shown = tok[:40].decode("utf-8", "replace")
+            if want_int:
+                raise InputError(
+                    f"cannot read {shown!r} as an integer",
+                    f"{self.where} line {line}",
+                    "text input with --range must hold whole numbers separated by white space",
+                )
+            raise InputError(
+                f"cannot read {shown!r} as a number",
+                f"{self.where} line {line}",
+                "text input must hold numbers separated by white space",
+            )
+        raise InputError("unreadable text", f"{self.where} line {first_line}", "check the encoding")
+
+    # -- public -----------------------------------------------------------------------------------
+    def feed(self, chunk: bytes) -> np.ndarray:
+        """Decode a chunk; returns the values completed by it (possibly none)."""
+        if not chunk:
+            return np.empty(0, dtype=self.fmt.dtype)
+        out = self._feed_binary(chunk) if self.fmt.is_binary else self._feed_text(chunk)
+        self.offset += len(chunk)
+        self.values += len(out)
+        return out
+
+    def finish(self) -> np.ndarray:
+        """End of stream: return the last values, or raise if a partial value is left over."""
+        if self.fmt.is_binary:
+            if self._carry:
+                n = len(self._carry)
+                raise InputError(
+                    f"stream length {self.offset} bytes is not a whole number of "
+                    f"{self.fmt.itemsize}-byte values ({n} byte{'s' if n != 1 else ''} left over)",
+                    f"{self.where} byte offset {self.offset - n}",
+                    "check --format, or trim the stream to whole values (no data is dropped silently)",
+                )
+            return np.empty(0, dtype=self.fmt.dtype)
+        body, self._carry = self._carry, b""
+        out = self._parse_text(body, self._line) if body.strip() else np.empty(0, dtype=self.fmt.dtype)
+        self.values += len(out)
+        return out
