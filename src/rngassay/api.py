@@ -6,74 +6,23 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+import os
 from typing import Any, Callable
 
 import numpy as np
 
-from . import __version__
 from .errors import InputError
 from .intake.formats import parse_format
-from .intake.sources import RawSource, open_source
+from .intake.sources import ArraySource, RawSource, draw_function, open_source
 from .intake.stream import Stream
-from .intake import views
 from .sizes import parse_size
+from .battery.battery import run_battery
+from .battery.grade import DEFAULT_ALPHA
+from .battery.plan import Plan, make_plan
+from .report.model import Report
 
 DEFAULT_BUDGET = 64 << 20
-
-
-@dataclass
-class CheckOutcome:
-    id: str
-    family: str
-    params: dict
-    statistic: float
-    p_value: float
-    grade: str
-    bytes: int
-    replicates: int = 1
-    p_left: float | None = None
-    second_level: dict | None = None
-
-
-@dataclass
-class Report:
-    source: dict
-    budget_bytes: int
-    checks: list[CheckOutcome] = field(default_factory=list)
-    verdict: str = "pass"
-    incomplete: bool = False
-    elapsed_s: float = 0.0
-
-    def exit_code(self, strict: bool = False) -> int:
-        if self.verdict == "fail" or (strict and self.verdict == "borderline"):
-            return 1
-        return 0
-
-    def to_dict(self) -> dict:
-        return {
-            "schema": "rngassay-report/0",
-            "tool_version": __version__,
-            "source": self.source,
-            "budget_bytes": self.budget_bytes,
-            "verdict": self.verdict,
-            "incomplete": self.incomplete,
-            "elapsed_s": self.elapsed_s,
-            "checks": [c.__dict__ for c in self.checks],
-        }
-
-    def to_json(self) -> str:
-        import json
-
-        return json.dumps(self.to_dict(), indent=2)
-
-    def to_text(self, color: bool = False) -> str:
-        lines = []
-        for c in sorted(self.checks, key=lambda c: c.p_value):
-            lines.append(f"  {c.id:<40} p = {c.p_value:.3g}  {c.grade}")
-        lines.append(f"verdict: {self.verdict}")
-        lines.append(f"bytes read: {self.source['bytes_read']}  sha256: {self.source['sha256']}")
-        return "\n".join(lines)
+BUFFER_LIMIT = 256 << 20  # finite sources up to this size are read and validated before planning
 
 
 def open_stream(
@@ -89,9 +38,13 @@ def open_stream(
 ) -> Stream:
     """Open a source and wrap it in a decoded, accounted :class:`Stream`."""
     f = parse_format(fmt, value_range)
-    raw = source if isinstance(source, RawSource) else open_source(
-        source, command=command, shell=shell, python=python, gen=gen, seed=seed
-    )
+    if isinstance(source, RawSource):
+        raw = source
+    elif source is not None and not isinstance(source, (str, os.PathLike)):
+        # a numpy Generator / BitGenerator, or a draw(n_bytes) callable, handed over directly
+        raw = ArraySource(type(source).__name__, draw_function(source, type(source).__name__), "python")
+    else:
+        raw = open_source(source, command=command, shell=shell, python=python, gen=gen, seed=seed)
     return Stream(raw, f)
 
 
@@ -106,73 +59,194 @@ def assay(
     python: str | None = None,
     gen: str | None = None,
     seed: int | None = None,
+    checks: list[str] | None = None,
+    skip: list[str] | None = None,
+    alpha: float = DEFAULT_ALPHA,
+    workers: int | None = 1,
+    retest: bool = True,
     progress: Callable[[str], None] | None = None,
-) -> Report:
-    """Assay a stream (placeholder plan until the battery lands: one frequency check)."""
+    plan_only: bool = False,
+) -> Report | Plan:
+    """Assay a stream and return its :class:`~rngassay.report.model.Report`.
+
+    ``source`` is a file path, ``"-"`` for standard input, or a :class:`RawSource`; or give one of
+    ``command``, ``python``, ``gen`` (with ``seed``). ``budget`` is the number of bytes to assay
+    (``"64MiB"`` or an int; default 64 MiB; a file shorter than that is read whole unless ``budget``
+    is given). ``checks``/``skip`` select checks by key, family or identifier. With ``plan_only`` the
+    :class:`~rngassay.battery.plan.Plan` is returned without reading any data.
+    """
     import time
 
     t0 = time.perf_counter()
+    if not (0 < alpha < 1):
+        raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
     explicit = budget is not None
     budget_bytes = parse_size(budget) if explicit else DEFAULT_BUDGET
     stream = open_stream(
         source, fmt=fmt, value_range=value_range, command=command, shell=shell, python=python, gen=gen, seed=seed
     )
     with stream:
-        size = stream.source.size_hint()
-        if not explicit and size is not None:
-            budget_bytes = min(budget_bytes, size)
         f = stream.fmt
-        if f.is_binary:
-            # a budget that reaches the end of a file reads one value past it, so that a trailing
-            # partial value is reported rather than silently dropped
-            whole_file = size is not None and budget_bytes >= size
-            n = -(-budget_bytes // f.itemsize) if whole_file else budget_bytes // f.itemsize
-            if n == 0:
-                raise InputError(f"budget {budget_bytes} bytes is less than one value", "", "give a larger --budget")
-            if whole_file:
-                vals = stream.read_values(n)
-                if explicit and stream.bytes_read < budget_bytes:
-                    stream.read_exact(n)  # raises: shorter than the budget asks
-            elif explicit or size is not None:
-                vals = stream.read_exact(n)
-            else:
-                vals = stream.read_values(n)
-        else:
-            chunks = []
-            while stream.bytes_read < budget_bytes and not stream.ended:
-                chunks.append(stream.read_values(1 << 16))
-            vals = np.concatenate(chunks) if chunks else np.empty(0)
-        if progress:
-            progress(f"read {stream.bytes_read} bytes")
-        outcome = _placeholder_check(vals, f, stream.bytes_read)
-        report = Report(source=stream.info().to_dict(), budget_bytes=budget_bytes, checks=[outcome])
-    report.verdict = outcome.grade
-    report.elapsed_s = time.perf_counter() - t0
+        size = stream.source.size_hint()
+        shared = not stream.unlimited
+        if shared:
+            if size == 0:
+                raise InputError("empty stream: no bytes to test", stream.source.where, "check the source produces data")
+            if not explicit and size is not None:
+                budget_bytes = min(budget_bytes, size)
+                if f.is_binary and size % f.itemsize and budget_bytes == size:
+                    left = size % f.itemsize
+                    raise InputError(
+                        f"stream length {size} bytes is not a whole number of {f.itemsize}-byte values "
+                        f"({left} byte{'s' if left != 1 else ''} left over)",
+                        f"{stream.source.where} byte offset {size - left}",
+                        "check --format, or trim the stream to whole values (no data is dropped silently)",
+                    )
+            if explicit and size is not None and size < budget_bytes:
+                raise InputError(
+                    f"stream is shorter than the plan needs ({budget_bytes} bytes needed, {size} available)",
+                    stream.source.where,
+                    "give a smaller --budget",
+                )
+            if size is None or not f.is_binary or (budget_bytes <= BUFFER_LIMIT and not plan_only):
+                # read (and validate) before planning: standard input of unknown length, text, and
+                # anything small enough -- so that bad values are reported before any work
+                stream = _buffered(stream, budget_bytes)
+                if f.is_binary:
+                    whole = budget_bytes - budget_bytes % f.itemsize
+                    if explicit and stream.bytes_read < whole:
+                        raise InputError(
+                            f"stream is shorter than the plan needs ({whole} bytes needed, "
+                            f"{stream.bytes_read} available)",
+                            stream.source.where,
+                            "give a smaller --budget",
+                        )
+                    budget_bytes = min(budget_bytes, stream.bytes_read)
+        budget_for_plan = stream.source.values_total if (shared and not f.is_binary) else budget_bytes
+        plan = make_plan(f, budget_for_plan, shared=shared, checks=checks, skip=skip)
+        if not f.is_binary and shared:
+            plan.budget_bytes = budget_bytes
+        if plan_only:
+            return plan
+        report = run_battery(
+            stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
+            settings={"workers_used": workers, "retest": retest}, t0=t0,
+        )
     return report
 
 
-def _placeholder_check(vals: np.ndarray, f, nbytes: int) -> CheckOutcome:
-    from scipy import stats
+class _MemorySource(RawSource):
+    """Values already read into memory, served again before the rest of the source."""
 
-    if f.kind in ("bytes", "words"):
-        b = views.as_bytes(vals, f)
-        counts = np.bincount(b, minlength=256)
-        res = stats.chisquare(counts)
-        pr = float(stats.chi2.sf(res.statistic, 255))
-        pl = float(stats.chi2.cdf(res.statistic, 255))
-        ident, fam, params = "frequency bytes", "classic", {"bins": 256}
-    elif f.kind == "text-integers":
-        x, k = views.as_integers(vals, f)
-        counts = np.bincount(x, minlength=k)
-        res = stats.chisquare(counts)
-        pr = float(stats.chi2.sf(res.statistic, k - 1))
-        pl = float(stats.chi2.cdf(res.statistic, k - 1))
-        ident, fam, params = "frequency outcomes", "categorical", {"k": k}
+    def __init__(self, inner: Stream, vals: np.ndarray):
+        super().__init__(inner.source.name)
+        self.kind = inner.source.kind
+        self.inner = inner
+        self.vals = vals
+        self.values_total = int(vals.size)
+
+    @property
+    def where(self) -> str:
+        return self.inner.source.where
+
+
+class _MemoryStream(Stream):
+    """A stream whose first values were read ahead (to validate and size them); the rest follows."""
+
+    def __init__(self, inner: Stream, vals: np.ndarray):
+        self.source = _MemorySource(inner, vals)
+        self.fmt = inner.fmt
+        self.values_read = 0
+        self._inner = inner
+        self._pos = 0
+
+    @property
+    def bytes_read(self) -> int:  # type: ignore[override]
+        return self._inner.bytes_read
+
+    @property
+    def ended(self) -> bool:  # type: ignore[override]
+        return self._pos >= self.source.vals.size and self._inner.ended
+
+    @property
+    def unlimited(self) -> bool:
+        return self._inner.unlimited
+
+    def read_values(self, n: int) -> np.ndarray:
+        out = self.source.vals[self._pos : self._pos + n]
+        self._pos += out.size
+        if out.size < n and not self._inner.ended:
+            more = self._inner.read_values(n - out.size)
+            out = np.concatenate([out, more]) if out.size else more
+        self.values_read += out.size
+        return out
+
+    def info(self):
+        return self._inner.info()
+
+    def close(self) -> None:
+        self._inner.close()
+
+
+def _buffered(stream: Stream, budget_bytes: int) -> Stream:
+    """Read up to ``budget_bytes`` of the stream into memory (whole values) and serve them again."""
+    chunks = []
+    if stream.fmt.is_binary:
+        vals = stream.read_values(budget_bytes // stream.fmt.itemsize)
+        if stream.ended:
+            stream.read_values(1)  # reaches the end: a trailing partial value raises
+        chunks.append(vals)
     else:
-        u = views.as_uniforms(vals, f)
-        res = stats.kstest(u, "uniform")
-        pr, pl = float(res.pvalue), None
-        ident, fam, params = "kolmogorov-smirnov uniforms", "classic", {}
-    p2 = pr if pl is None else min(1.0, 2 * min(pr, pl))
-    grade = "fail" if p2 < 1e-3 else "pass"
-    return CheckOutcome(ident, fam, params, float(res.statistic), pr, grade, nbytes, 1, pl)
+        while stream.bytes_read < budget_bytes and not stream.ended:
+            chunks.append(stream.read_values(1 << 16))
+    vals = np.concatenate(chunks) if chunks else np.empty(0, dtype=stream.fmt.dtype)
+    if vals.size == 0:
+        raise InputError("empty stream: no values to test", stream.source.where, "check the source produces data")
+    return _MemoryStream(stream, vals)
+
+
+class _ArrayRaw(RawSource):
+    kind = "python"
+
+    def __init__(self, name: str, data: bytes):
+        super().__init__(name)
+        self._data, self._pos = data, 0
+
+    def size_hint(self) -> int | None:
+        return len(self._data)
+
+    def read(self, n: int) -> bytes:
+        out = self._data[self._pos : self._pos + n]
+        self._pos += len(out)
+        return out
+
+
+def stream_from_array(values: np.ndarray, fmt: str = "<f8", name: str = "array", kind: str = "derived") -> Stream:
+    """A finite stream over an in-memory array (e.g. PIT uniforms made from a supplier's variates).
+
+    The array is encoded in ``fmt`` (validated like any input) and read back through the normal intake,
+    so the battery treats it exactly as a file with that content.
+    """
+    raw = _ArrayRaw(name, np.ascontiguousarray(values, dtype=np.dtype(fmt)).tobytes())
+    raw.kind = kind
+    return Stream(raw, parse_format(fmt))
+
+
+def assay_stream(
+    stream: Stream,
+    *,
+    budget: int | None = None,
+    checks: list[str] | None = None,
+    skip: list[str] | None = None,
+    alpha: float = DEFAULT_ALPHA,
+    workers: int | None = 1,
+    retest: bool = True,
+    progress: Callable[[str], None] | None = None,
+    command: str = "test",
+) -> Report:
+    """Run the battery on an already-open finite stream (all of it, or ``budget`` bytes)."""
+    size = stream.source.size_hint()
+    budget_bytes = budget if budget is not None else (size if size is not None else DEFAULT_BUDGET)
+    plan = make_plan(stream.fmt, budget_bytes, shared=not stream.unlimited, checks=checks, skip=skip)
+    return run_battery(stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
+                       command=command, settings={"workers_used": workers, "retest": retest})

@@ -15,7 +15,7 @@ import click
 from . import __version__
 from .errors import InputError
 
-EXIT_OK, EXIT_FAIL, EXIT_USAGE = 0, 1, 2
+EXIT_OK, EXIT_FAIL, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
 
 
 def _source_options(f):
@@ -132,25 +132,107 @@ def _quiet_broken_pipe() -> None:
     raise click.exceptions.Exit(0)
 
 
+def _report_options(f):
+    opts = [
+        click.option("--json", "json_path", default=None, metavar="PATH", help="Write the report as JSON (versioned schema)."),
+        click.option("--html", "html_path", default=None, metavar="PATH", help="Write a self-contained HTML report with figures."),
+        click.option("--junit", "junit_path", default=None, metavar="PATH", help="Write JUnit XML: one test case per check."),
+        click.option("--strict", is_flag=True, help="Exit 1 for a borderline run too."),
+        click.option("--quiet", "-q", is_flag=True, help="No progress on stderr."),
+    ]
+    for o in reversed(opts):
+        f = o(f)
+    return f
+
+
+def _split(values: tuple[str, ...]) -> list[str] | None:
+    out = [p.strip() for v in values for p in v.split(",") if p.strip()]
+    return out or None
+
+
 @cli.command("test")
 @_source_options
-@click.option("--budget", default=None, metavar="SIZE", help="Bytes of the stream to assay (default 64 MiB; files: at most their size).")
-@click.option("--quiet", "-q", is_flag=True, help="No progress on stderr.")
-def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, budget, quiet) -> None:
+@click.option("--budget", default=None, metavar="SIZE",
+              help="Bytes each check may see (default 64 MiB; a file shorter than that is read whole).")
+@click.option("--checks", "checks", multiple=True, metavar="SEL",
+              help="Run only these checks: key, family or identifier; comma-separated or repeated.")
+@click.option("--skip", "skip", multiple=True, metavar="SEL", help="Leave out these checks (same selectors).")
+@click.option("--alpha", default=1e-3, type=float, show_default=True,
+              help="Family-wise false-alarm rate of a run (Holm).")
+@click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
+@click.option("--no-retest", is_flag=True, help="Do not retest borderline checks on fresh data.")
+@click.option("--plan-only", is_flag=True, help="Show the plan (checks, parameters, bytes, replicates) and stop.")
+@_report_options
+def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, budget, checks, skip, alpha,
+             workers, no_retest, plan_only, json_path, html_path, junit_path, strict, quiet) -> None:
     """Assay a stream: read it, run the checks, grade, report; exit 0 pass, 1 fail, 2 bad input."""
     from . import api
 
     _check_source_given(source, command, python_spec, gen)
+    if workers is not None and workers < 1:
+        raise InputError(f"--workers must be at least 1, got {workers}", "", "e.g. --workers 2")
+    outputs = _check_outputs(json_path, html_path, junit_path)
     progress = Progress(quiet)
     try:
-        report = api.assay(
+        result = api.assay(
             source, fmt=fmt, value_range=value_range, command=command, shell=shell, python=python_spec,
-            gen=gen, seed=seed, budget=budget, progress=progress,
+            gen=gen, seed=seed, budget=budget, checks=_split(checks), skip=_split(skip), alpha=alpha,
+            workers=workers or (os.cpu_count() or 1), retest=not no_retest, progress=progress, plan_only=plan_only,
         )
+    except InputError as e:
+        partial = getattr(e, "partial_report", None)
+        if partial is not None:  # bad data mid-run: file what finished, marked incomplete, then the error
+            progress.done()
+            _write_outputs(partial, outputs)
+            click.echo(partial.to_text(color=sys.stdout.isatty()))
+        raise
     finally:
         progress.done()
+    if plan_only:
+        click.echo(result.describe())
+        raise click.exceptions.Exit(EXIT_OK)
+    report = result
+    _write_outputs(report, outputs)
     click.echo(report.to_text(color=sys.stdout.isatty()))
-    raise click.exceptions.Exit(report.exit_code())
+    for what, path in outputs:
+        click.echo(f"{what:<12} {path}")
+    code = report.exit_code(strict=strict)
+    if report.incomplete:
+        code = max(code, EXIT_FAIL) if not any("interrupted" in n for n in report.notes) else 130
+    raise click.exceptions.Exit(code)
+
+
+def _check_outputs(json_path, html_path, junit_path) -> list[tuple[str, str]]:
+    """Validate report paths before any work, so a long run does not end in an unwritable path."""
+    outs = [(w, p) for w, p in (("json report", json_path), ("html report", html_path), ("junit report", junit_path)) if p]
+    seen = set()
+    for what, path in outs:
+        full = os.path.abspath(path)
+        if full in seen:
+            raise InputError(f"two reports would be written to the same file", path, "give each report its own path")
+        seen.add(full)
+        if os.path.isdir(path):
+            raise InputError(f"{what} path is a directory", path, "give a file name")
+        parent = os.path.dirname(full)
+        if not os.path.isdir(parent):
+            raise InputError(f"cannot write {what}: folder does not exist", path, "create the folder or choose another path")
+    return outs
+
+
+def _write_outputs(report, outputs: list[tuple[str, str]]) -> None:
+    from .report.files import write_atomic
+
+    for what, path in outputs:
+        if what.startswith("json"):
+            write_atomic(path, report.to_json() + "\n")
+        elif what.startswith("html"):
+            from .report.html import render_html
+
+            write_atomic(path, render_html(report))
+        else:
+            from .report.junit import render_junit
+
+            write_atomic(path, render_junit(report))
 
 
 def _check_source_given(source: Any, command: Any, python_spec: Any, gen: Any) -> None:
@@ -188,6 +270,11 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         click.echo("rngassay: interrupted", err=True)
         rc = 130
+    except Exception as e:  # a bug of ours: still one line; RNGASSAY_DEBUG=1 shows the traceback
+        if os.environ.get("RNGASSAY_DEBUG"):
+            raise
+        click.echo(f"rngassay: internal error: {type(e).__name__}: {e} (set RNGASSAY_DEBUG=1 for details and please report it)", err=True)
+        rc = EXIT_INTERNAL
     if rc is None:
         rc = EXIT_OK
     return int(rc)
@@ -196,35 +283,62 @@ def main(argv: list[str] | None = None) -> int:
 
 
 DEMO_STREAMS = (
-    ("supplier stream (Kestrel Draw Systems, fictional)", "shake256", 2026),
-    ("home-grown generator (Harbour Lane Lotteries, fictional)", "lcg32", 42),
+    ("supplier", "Draw-machine stream from Kestrel Draw Systems (fictional supplier)", "shake256", 2026),
+    ("homegrown", "Harbour Lane Lotteries' home-grown simulation generator (fictional)", "lcg32", 42),
 )
 
 
 @cli.command()
-@click.option("--budget", default="8MiB", metavar="SIZE", help="Bytes per stream (default 8 MiB).")
+@click.option("--budget", default="8MiB", metavar="SIZE", show_default=True, help="Bytes each check may see.")
+@click.option("--out", "out_dir", default="reports", metavar="DIR", show_default=True, help="Folder for the reports.")
+@click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress on stderr.")
-def demo(budget: str, quiet: bool) -> None:
-    """Run the built-in example: a fictional lottery operator assays two streams.
+def demo(budget: str, out_dir: str, workers: int | None, quiet: bool) -> None:
+    """Run the built-in example and write its reports.
 
-    Harbour Lane Lotteries (an invented organisation) receives draw randomness from an invented
-    supplier, Kestrel Draw Systems, and also keeps a home-grown generator for its simulations.
-    The demo assays both with built-in generators standing in for them.
+    Harbour Lane Lotteries, an invented operator, receives its draw randomness from an invented supplier,
+    Kestrel Draw Systems, and keeps a home-grown generator for its prize-fund simulations. The demo
+    assays both (built-in generators stand in for them) and writes JSON, HTML and JUnit reports.
     """
     from . import api
 
-    worst = 0
-    for title, name, seed in DEMO_STREAMS:
+    if not os.path.isdir(out_dir):
+        try:
+            os.makedirs(out_dir, exist_ok=True)
+        except OSError as e:
+            raise InputError(f"cannot create the report folder: {e.strerror}", out_dir, "choose another --out") from None
+    written = []
+    for slug, title, name, seed in DEMO_STREAMS:
         progress = Progress(quiet)
         try:
-            report = api.assay(gen=name, seed=seed, budget=budget, progress=progress)
+            report = api.assay(gen=name, seed=seed, budget=budget, progress=progress,
+                               workers=workers or (os.cpu_count() or 1))
         finally:
             progress.done()
-        click.echo(f"== {title}: --gen {name} --seed {seed}")
+        report.notes.insert(0, f"demo: {title}; stand-in: --gen {name} --seed {seed}")
+        base = os.path.join(out_dir, f"demo-{slug}")
+        outs = [("json report", base + ".json"), ("html report", base + ".html"), ("junit report", base + ".xml")]
+        _write_outputs(report, outs)
+        click.echo(f"== {title}  (stand-in: --gen {name} --seed {seed})")
         click.echo(report.to_text(color=sys.stdout.isatty()))
         click.echo("")
-        worst = max(worst, report.exit_code())
-    click.echo(
-        "A pass is evidence at the sample size used, not proof of unpredictability. For gaming or "
-        "cryptographic use, defer to the applicable technical standards, local regulation and accredited test laboratories."
-    )
+        written += [p for _, p in outs]
+    click.echo("Reports written:")
+    for p in written:
+        click.echo(f"  {p}")
+
+
+@cli.command()
+@click.argument("base", metavar="BASE.json")
+@click.argument("new", metavar="NEW.json")
+@click.option("--all", "show_all", is_flag=True, help="Also list checks that did not change.")
+def diff(base: str, new: str, show_all: bool) -> None:
+    """Compare two JSON reports check by check; exit 1 when NEW is worse, else 0."""
+    from .report.diff import diff_reports, render_diff_text
+    from .report.files import read_report_json
+
+    b = read_report_json(base)
+    n = read_report_json(new)
+    result = diff_reports(b, n)
+    click.echo(render_diff_text(result, show_same=show_all))
+    raise click.exceptions.Exit(EXIT_FAIL if result.worse else EXIT_OK)

@@ -147,7 +147,7 @@ def test_command_produces_nothing(run_cli):
 
 def test_command_ends_early(run_cli):
     cmd = f"{sys.executable} -c \"import sys; sys.stdout.buffer.write(bytes(100))\""
-    one_line_error(run_cli("test", "--command", cmd, "--budget", "1KiB"), "1024 bytes needed", "100 available")
+    one_line_error(run_cli("test", "--command", cmd, "--budget", "1KiB"), "ended after 100 bytes", "smaller --budget")
 
 
 def test_python_spec_does_not_import(run_cli, tmp_path):

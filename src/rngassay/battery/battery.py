@@ -1,0 +1,133 @@
+"""The battery: run a plan on a stream, grade, retest borderline checks on fresh data, build the report."""
+
+from __future__ import annotations
+
+import time
+from typing import Any, Callable
+
+from ..checks.registry import load_all
+from ..errors import InputError
+from ..intake.stream import Stream
+from ..report.model import CheckReport, Report, Round
+from . import grade as G
+from .plan import Plan
+from .run import Executor, Outcome, run_plan
+
+
+def run_battery(
+    stream: Stream,
+    plan: Plan,
+    *,
+    alpha: float = G.DEFAULT_ALPHA,
+    workers: int | None = None,
+    retest: bool = True,
+    progress: Callable[[str], None] | None = None,
+    command: str = "test",
+    settings: dict[str, Any] | None = None,
+    t0: float | None = None,
+) -> Report:
+    t0 = time.perf_counter() if t0 is None else t0
+    registry = load_all()
+    notes: list[str] = list(f"left out {s}" for s in plan.skipped)
+    stop_error = None
+    with Executor(workers) as ex:
+        try:
+            outcomes, complete, reason = run_plan(stream, plan, ex, progress=progress)
+        except InputError as e:
+            outcomes = getattr(e, "partial", None)
+            if outcomes is None or not any(r is not None for o in outcomes for r in o.results):
+                raise
+            stop_error, complete, reason = e, False, f"stopped by bad input: {e.line()}"
+        rounds1 = [G.second_level(o) for o in outcomes]
+        done = [(o, r) for o, r in zip(outcomes, rounds1) if r is not None]
+        ps = [r.p_value for _, r in done]
+        grades, adj = G.holm_grades(ps, alpha)
+        m = len(done)
+        checks: list[CheckReport] = []
+        for (o, r), g, a in zip(done, grades, adj):
+            checks.append(_check_report(o, r, g, a, registry))
+        # a check that errored in every replicate cannot vouch for anything: it fails, and says why
+        for o, r in zip(outcomes, rounds1):
+            if r is None and o.errors:
+                checks.append(_error_report(o, registry))
+        # borderline checks: one retest on fresh, disjoint data when the source has more
+        border = [c for c in checks if c.grade == "borderline"]
+        if border and retest and complete:
+            if stream.ended and not stream.unlimited:
+                notes.append("borderline checks were not retested: the source has no more data")
+            else:
+                by_id = {o.check.id: o for o in outcomes}
+                todo = [by_id[c.id].check for c in border]
+                if progress:
+                    progress(f"retesting {len(todo)} borderline check(s) on fresh data")
+                try:
+                    outs2, complete2, reason2 = run_plan(stream, plan, ex, checks=todo, progress=progress)
+                except Exception as e:  # no more data: keep round one
+                    outs2, complete2, reason2 = [], True, None
+                    notes.append(f"borderline checks were not retested: {getattr(e, 'line', lambda: str(e))()}")
+                for o2 in outs2:
+                    r2 = G.second_level(o2)
+                    c = next(c for c in checks if c.id == o2.check.id)
+                    if r2 is None:
+                        continue
+                    g2, a2 = G.retest_grade(r2.p_value, m, alpha)
+                    c.rounds.append(_round(r2, o2))
+                    c.p_value, c.adjusted_p, c.grade = r2.p_value, a2, g2
+                    c.bytes += o2.bytes
+                    c.replicates = r2.replicates
+                    c.second_level = r2.second_level
+                    c.statistic = r2.statistic
+                if not complete2:
+                    complete, reason = False, reason2
+    if not complete:
+        notes.append(f"incomplete run: {reason}; the verdict covers only what finished")
+    order = {pc.id: i for i, pc in enumerate(plan.checks)}
+    checks.sort(key=lambda c: order.get(c.id, 10**9))
+    verdict = G.run_verdict([c.grade for c in checks])
+    report = Report(
+        command=command,
+        source=stream.info().to_dict(),
+        budget_bytes=plan.budget_bytes,
+        alpha=alpha,
+        verdict=verdict,
+        combined_p=G.combined_p([c.p_value for c in checks if c.error is None]),
+        checks=checks,
+        incomplete=not complete,
+        elapsed_s=time.perf_counter() - t0,
+        plan=plan.to_list(),
+        settings=dict(settings or {}, segments=plan.segments, shared_segments=plan.shared,
+                      borderline_factor=G.BORDERLINE_FACTOR),
+        notes=notes,
+    )
+    if stop_error is not None:
+        stop_error.partial_report = report  # type: ignore[attr-defined]
+        raise stop_error
+    return report
+
+
+def _round(r: G.RoundResult, o: Outcome) -> Round:
+    return Round(replicates=r.replicates, bytes=o.bytes, p_value=r.p_value, replicate_p=r.replicate_p,
+                 statistic=r.statistic, second_level=r.second_level)
+
+
+def _check_report(o: Outcome, r: G.RoundResult, g: str, a: float, registry) -> CheckReport:
+    spec = registry[o.check.key]
+    sl = dict(r.second_level)
+    if o.errors:
+        sl["errors"] = o.errors[:5]
+    return CheckReport(
+        id=o.check.id, key=o.check.key, family=o.check.family, params=o.check.params, view=o.check.view,
+        kind=spec.kind, statistic=r.statistic, p_value=r.p_value, grade=g, bytes=o.bytes,
+        replicates=r.replicates, adjusted_p=a, second_level=sl, rounds=[_round(r, o)], null=r.null,
+        title=spec.title,
+    )
+
+
+def _error_report(o: Outcome, registry) -> CheckReport:
+    spec = registry[o.check.key]
+    return CheckReport(
+        id=o.check.id, key=o.check.key, family=o.check.family, params=o.check.params, view=o.check.view,
+        kind=spec.kind, statistic=None, p_value=1.0, grade="fail", bytes=o.bytes, replicates=0,
+        adjusted_p=None, second_level={"errors": o.errors[:5]}, rounds=[], null="", title=spec.title,
+        error=o.errors[0] if o.errors else "did not run",
+    )

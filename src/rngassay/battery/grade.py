@@ -1,0 +1,187 @@
+"""Grading: second level over replicates, family-wise control across checks, combined evidence.
+
+Second level (one p-value per check and round)
+---------------------------------------------
+Each check ran on ``R`` disjoint segments. Its round p-value is the Bonferroni minimum of:
+
+- continuous statistics: (a) Anderson–Darling test of the ``R`` first-level p-values against uniform
+  (catches p-values piling up near 0 *or* near 1, i.e. too-good fits), (b) the binomial right tail of
+  the number of replicates with p < 0.01, (c) the smallest replicate p-value, Šidák-corrected
+  (``1 − (1 − p_min)^R``) — a single blatant failure is not averaged away;
+- discrete statistics: never a uniformity test on discrete p-values. When the check reports additive
+  sufficient quantities (``pooled``), the replicates are pooled — a sum of Poisson counts is Poisson
+  with the summed mean, a sum of independent chi-squares is chi-square with summed degrees of
+  freedom, binomial counts with a common p add up — and the pooled count's tail is used (both tails
+  where the check says both mean something); plus (c). Without pooled quantities, (c) alone (valid,
+  conservative for discrete p-values).
+
+First-level p-values are two-sided (``2 · min(right, left)``) where the registry says both tails count.
+
+Run level
+---------
+Holm's step-down procedure over the checks' p-values at ``alpha`` (default 0.001): a sound generator
+fails a run with probability at most ``alpha``. A check Holm rejects is ``fail``. A check whose
+Holm-adjusted p-value is below ``BORDERLINE_FACTOR · alpha`` (10 · alpha) but not below ``alpha`` is
+``borderline``; it is retested once on fresh, disjoint data when the source has more. The retest is
+judged alone with a Bonferroni factor equal to the number of checks: ``fail`` below alpha,
+``borderline`` below 10 · alpha, else ``pass``. Both rounds are kept in the report.
+
+The headline also carries one combined p-value over all checks: the harmonic mean p-value (Wilson 2019,
+PNAS 116:1195–1200, the asymptotically exact version via the Landau distribution), valid under
+dependence between checks. It is chosen over the Cauchy combination because the second-level
+p-values are often exactly 1 (Bonferroni caps), and a p of 1 swamps the Cauchy statistic, while the
+harmonic mean is driven by the small p-values that carry the evidence.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from .. import stats
+from ..checks.registry import load_all
+from ..checks.result import CheckResult
+from .run import Outcome
+
+DEFAULT_ALPHA = 1e-3
+BORDERLINE_FACTOR = 10.0
+PROPORTION_THRESHOLD = 0.01
+
+
+@dataclass
+class RoundResult:
+    p_value: float
+    replicate_p: list[float]
+    statistic: float | None
+    second_level: dict[str, Any]
+    replicates: int
+    null: str
+
+
+def _first_level_p(r: CheckResult, both: bool) -> float:
+    if both and r.p_left is not None:
+        return stats.clip_p(min(1.0, 2.0 * min(r.p_value, r.p_left)))
+    return stats.clip_p(r.p_value)
+
+
+def sidak_min(ps: list[float]) -> float:
+    """P(min of R independent uniforms <= p_min) = 1 - (1 - p_min)^R, computed without cancellation."""
+    if not ps:
+        return 1.0
+    pmin = min(ps)
+    if pmin >= 1.0:
+        return 1.0
+    return stats.clip_p(-math.expm1(len(ps) * math.log1p(-pmin)))
+
+
+def second_level(outcome: Outcome) -> RoundResult | None:
+    """Combine the finished replicates of one check; None when no replicate finished."""
+    spec = load_all()[outcome.check.key]
+    reps = [r for r in outcome.results if r]  # None: did not finish; []: no sub-test applied
+    if not reps:
+        return None
+    # a check may return several sub-results per replicate (e.g. one per state): Bonferroni within it
+    per_rep: list[float] = []
+    firsts: list[CheckResult] = []
+    for rs in reps:
+        ps = [_first_level_p(r, spec.both_tails) for r in rs]
+        per_rep.append(stats.clip_p(min(1.0, len(ps) * min(ps))))
+        firsts.append(rs[0])
+    multi = any(len(rs) > 1 for rs in reps)
+    R = len(per_rep)
+    parts: dict[str, Any] = {}
+    sid = sidak_min(per_rep)
+    parts["min_replicate"] = {"p_min": min(per_rep), "p_value": sid}
+    if multi:
+        parts["subtests"] = max(len(rs) for rs in reps)  # replicate p = Bonferroni over sub-tests
+    candidates = [sid]
+    null = firsts[0].null
+    # the result's own kind decides (a check may fall back to an exact discrete law for small counts)
+    continuous = spec.kind == "continuous" and all(r.kind == "continuous" for rs in reps for r in rs)
+    if continuous and not multi:
+        if R >= 2:
+            a2, p_ad = stats.uniformity_of_pvalues(np.asarray(per_rep))
+            parts["uniformity"] = {"method": "anderson-darling", "statistic": float(a2), "p_value": float(p_ad)}
+            candidates.append(p_ad)
+        k, right, _left = stats.proportion_below(np.asarray(per_rep), PROPORTION_THRESHOLD)
+        parts["proportion_below"] = {"threshold": PROPORTION_THRESHOLD, "count": int(k), "of": R, "p_value": float(right)}
+        candidates.append(right)
+    elif not multi and all(r.pooled for r in firsts):
+        pooled = _pool(firsts, spec.both_tails)
+        if pooled is not None:
+            parts["pooled"] = pooled
+            candidates.append(pooled["p_value"])
+    p = stats.clip_p(min(1.0, len(candidates) * min(candidates)))
+    parts["method"] = f"Bonferroni minimum of {len(candidates)} second-level p-value{'s' if len(candidates) > 1 else ''}"
+    statistic = firsts[0].statistic if R == 1 else None
+    if "pooled" in parts:
+        statistic = parts["pooled"]["statistic"]
+    return RoundResult(p, per_rep, None if statistic is None else float(statistic), parts, R, null)
+
+
+def _pool(firsts: list[CheckResult], both: bool) -> dict[str, Any] | None:
+    d0 = firsts[0].pooled or {}
+    try:
+        if "mu" in d0:
+            total, mu, right, left = stats.pool_poisson([r.pooled["observed"] for r in firsts], [r.pooled["mu"] for r in firsts])
+            out = {"law": f"poisson(mu={mu:.6g})", "statistic": float(total)}
+        elif "df" in d0:
+            total, df, right, left = stats.pool_chisquare([r.pooled["statistic"] for r in firsts], [r.pooled["df"] for r in firsts])
+            out = {"law": f"chi2(df={df:g})", "statistic": float(total)}
+        elif "counts" in d0:
+            # category counts with equal probabilities: pool by adding counts, then chi-square
+            counts = np.sum([np.asarray(r.pooled["counts"], dtype=float) for r in firsts], axis=0)
+            probs = d0.get("probs")
+            res = stats.chisquare_gof(counts, probs=np.asarray(probs) if probs is not None else np.full(counts.size, 1.0 / counts.size))
+            right, left = res.p_value, res.p_left
+            out = {"law": f"chi2(df={res.df:g}) on pooled counts", "statistic": float(res.statistic)}
+        elif "n" in d0 and "p" in d0:
+            total, n, right, left = stats.pool_binomial(
+                [r.pooled["observed"] for r in firsts], [r.pooled["n"] for r in firsts], float(d0["p"])
+            )
+            out = {"law": f"binomial(n={n}, p={d0['p']:.6g})", "statistic": float(total)}
+        else:
+            return None
+    except (KeyError, ValueError, TypeError):
+        return None
+    p = stats.discrete_two_sided(right, left) if both else stats.clip_p(right)
+    out.update({"p_right": float(right), "p_left": float(left), "p_value": float(p)})
+    return out
+
+
+def holm_grades(ps: list[float], alpha: float) -> tuple[list[str], list[float]]:
+    """Grades from Holm-adjusted p-values: fail < alpha <= borderline < 10 alpha <= pass."""
+    if not ps:
+        return [], []
+    adj = [float(a) for a in stats.holm_adjusted(np.asarray(ps, dtype=float))]
+    return [grade_of(a, alpha) for a in adj], adj
+
+
+def grade_of(adjusted_p: float, alpha: float) -> str:
+    if adjusted_p < alpha:
+        return "fail"
+    if adjusted_p < BORDERLINE_FACTOR * alpha:
+        return "borderline"
+    return "pass"
+
+
+def retest_grade(p: float, m: int, alpha: float) -> tuple[str, float]:
+    adj = min(1.0, p * m)
+    return grade_of(adj, alpha), adj
+
+
+def combined_p(ps: list[float]) -> float | None:
+    if not ps:
+        return None
+    return float(stats.harmonic_mean_p(np.asarray(ps, dtype=float)))
+
+
+def run_verdict(grades: list[str]) -> str:
+    if "fail" in grades:
+        return "fail"
+    if "borderline" in grades:
+        return "borderline"
+    return "pass"

@@ -1,0 +1,178 @@
+"""The plan: which checks run, with which parameters, on how much data, in how many replicates.
+
+How the budget is spent
+-----------------------
+The budget (default 64 MiB) is cut into ``R`` disjoint segments, ``R = clamp(budget / 1 MiB, 4, 32)``
+(the replicates). Every check runs once per segment; its parameters come from its registry entry's
+``default_params(n)``, where ``n`` is the number of values of the check's view that one segment holds,
+and it reads only the first ``values_needed(params)`` values of that view (a check need not see every
+byte). The second level then combines the ``R`` first-level results (see :mod:`.grade`).
+
+- Finite sources (file, stdin): all checks share the segments: the stream is read once, segment by
+  segment, so memory stays bounded by one segment and its views.
+- Unlimited sources (generators, commands, Python factories): every check gets fresh data: for each
+  check and replicate the runner reads exactly the bytes that check needs.
+
+The plan depends only on the input format, the budget, the source kind and the selection, never on
+the number of workers, so results are identical for any ``--workers``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+from ..checks.registry import CheckSpec, check_id, load_all
+from ..errors import InputError
+from ..intake import views
+from ..intake.formats import Format
+
+MIN_SEGMENTS, MAX_SEGMENTS = 4, 32
+SEGMENT_UNIT = 1 << 20
+SIZE_KEYS = ("n", "n_bits", "n_values", "n_words")  # parameters that only say how much data is used
+
+
+@dataclass
+class PlannedCheck:
+    id: str
+    key: str
+    family: str
+    view: str
+    params: dict[str, Any]
+    values: int  # view values per replicate
+    bytes: int  # stream bytes (text: values) per replicate
+    replicates: int
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+@dataclass
+class Plan:
+    fmt: Format
+    budget_bytes: int
+    segments: int
+    segment_bytes: int  # binary formats: bytes per segment; text: values per segment
+    shared: bool  # finite source: checks share segments
+    checks: list[PlannedCheck] = field(default_factory=list)
+    skipped: list[str] = field(default_factory=list)  # checks left out, with the reason
+
+    def to_list(self) -> list[dict[str, Any]]:
+        return [c.to_dict() for c in self.checks]
+
+    def bytes_total(self) -> int:
+        if self.shared:
+            return self.segments * self.segment_bytes
+        return sum(c.bytes * c.replicates for c in self.checks)
+
+    def describe(self) -> str:
+        from ..sizes import format_size
+
+        unit = "values" if not self.fmt.is_binary else "bytes"
+        lines = [
+            f"plan: {len(self.checks)} checks, {self.segments} replicates each, "
+            + (f"shared segments of {self.segment_bytes} {unit}" if self.shared else "fresh data for every check"),
+            f"budget {format_size(self.budget_bytes)} ({self.budget_bytes} bytes); format {self.fmt.describe()}",
+            "",
+            f"  {'check':<52} {'family':<11} {'view':<9} {'per replicate':>14} {'replicates':>10}",
+        ]
+        for c in self.checks:
+            lines.append(f"  {c.id:<52} {c.family:<11} {c.view:<9} {c.bytes:>14} {c.replicates:>10}")
+        for s in self.skipped:
+            lines.append(f"  (left out: {s})")
+        return "\n".join(lines)
+
+
+def display_id(key: str, params: dict[str, Any]) -> str:
+    return check_id(key, {k: v for k, v in params.items() if k not in SIZE_KEYS})
+
+
+def segments_for(budget_bytes: int) -> int:
+    return max(MIN_SEGMENTS, min(MAX_SEGMENTS, budget_bytes // SEGMENT_UNIT))
+
+
+def _matches(spec: CheckSpec, cid: str, patterns: list[str]) -> bool:
+    for p in patterns:
+        p = p.strip().lower()
+        if not p:
+            continue
+        if p in (spec.family, spec.key) or cid.lower() == p or cid.lower().startswith(p + " "):
+            return True
+    return False
+
+
+def make_plan(
+    fmt: Format,
+    budget_bytes: int,
+    *,
+    shared: bool,
+    checks: list[str] | None = None,
+    skip: list[str] | None = None,
+    families: tuple[str, ...] | None = None,
+    segments: int | None = None,
+) -> Plan:
+    """Choose checks and parameters for a budget. ``checks``/``skip`` select by key, family or id."""
+    registry = load_all()
+    R = segments or segments_for(budget_bytes)
+    if fmt.is_binary:
+        seg = budget_bytes // R
+        seg -= seg % max(8, fmt.itemsize)  # whole 64-bit words in every segment
+        if seg <= 0:
+            raise InputError(
+                f"budget {budget_bytes} bytes is too small for {R} replicates", "", "give a larger --budget, e.g. 1MiB"
+            )
+    else:
+        seg = max(1, budget_bytes // R)  # text: values per segment (budget counted in values)
+    plan = Plan(fmt, budget_bytes, R, seg, shared)
+    avail = set(views.available_views(fmt))
+    selected_any = False
+    for key, spec in sorted(registry.items(), key=lambda kv: (_family_order(kv[1].family), kv[0])):
+        if families is not None and spec.family not in families:
+            continue
+        if spec.view not in avail:
+            continue
+        if spec.family == "categorical" and fmt.kind != "text-integers":
+            continue
+        if fmt.kind == "text-integers" and spec.family != "categorical":
+            continue
+        per_value = views.input_bytes_per_value(fmt, spec.view) if fmt.is_binary else 1.0
+        n_avail = int(seg / per_value)
+        if spec.view == "integers" and fmt.kind in ("bytes", "words"):
+            n_avail = int(n_avail * 0.99)  # rejection sampling may drop a few words
+        try:
+            param_sets = spec.default_params(n_avail) if n_avail > 0 else []
+        except Exception as e:  # a check's parameter rule must never take the battery down
+            plan.skipped.append(f"{key}: parameter rule failed ({type(e).__name__}: {e})")
+            continue
+        if not param_sets:
+            plan.skipped.append(f"{key}: needs more data per replicate than {n_avail} {spec.view} values")
+            continue
+        for params in param_sets:
+            cid = display_id(key, params)
+            if checks and not _matches(spec, cid, checks):
+                continue
+            if skip and _matches(spec, cid, skip):
+                continue
+            need = int(spec.values_needed(params))
+            if need > n_avail:
+                plan.skipped.append(f"{cid}: needs {need} {spec.view} values per replicate, {n_avail} available")
+                continue
+            nbytes = int(math.ceil(need * per_value)) if fmt.is_binary else need
+            if fmt.is_binary:
+                nbytes += (-nbytes) % max(8, fmt.itemsize)
+            reps = max(1, min(R, int(spec.extra.get("max_replicates", R))))  # costly checks: fewer replicates
+            plan.checks.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, reps))
+            selected_any = True
+    if not selected_any:
+        what = "the selection" if checks or skip else f"format {fmt.describe()}"
+        raise InputError(
+            f"no check can run for {what} with a budget of {budget_bytes} bytes",
+            "",
+            "give a larger --budget or change --checks/--skip (see `rngassay catalog`)",
+        )
+    return plan
+
+
+def _family_order(f: str) -> int:
+    return {"classic": 0, "categorical": 1, "bits": 2, "transform": 3}.get(f, 9)

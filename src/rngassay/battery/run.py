@@ -1,0 +1,207 @@
+"""Running a plan: cut segments, make views, call checks, in-process or in a process pool.
+
+Results are identical for any number of workers: every check is a pure function of its data, the
+data a check sees depends only on the plan, and results are collected in plan order.
+"""
+
+from __future__ import annotations
+
+import concurrent.futures as cf
+import os
+import time
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+import numpy as np
+
+from ..checks.registry import load_all
+from ..checks.result import CheckResult
+from ..intake import views
+from ..intake.formats import Format
+from ..intake.stream import Stream
+from .plan import Plan, PlannedCheck
+
+
+@dataclass
+class Outcome:
+    """First-level results of one planned check, replicate by replicate (None = did not finish)."""
+
+    check: PlannedCheck
+    results: list[list[CheckResult] | None] = field(default_factory=list)
+    errors: list[str] = field(default_factory=list)
+    bytes: int = 0
+    seconds: float = 0.0  # time spent in the check itself (timing only; never affects results)
+
+
+class ViewCache:
+    """Views of one segment, made once and shared by the checks that run on it."""
+
+    def __init__(self, vals: np.ndarray, fmt: Format):
+        self.vals, self.fmt = vals, fmt
+        self._cache: dict[Any, Any] = {}
+
+    def get(self, view: str, k: int | None = None) -> Any:
+        key = (view, k)
+        if key not in self._cache:
+            f, v = self.fmt, self.vals
+            if view == "bytes":
+                out = views.as_bytes(v, f)
+            elif view == "words32":
+                out = views.as_words32(v, f)
+            elif view == "words64":
+                out = views.as_words64(v, f)
+            elif view == "bits":
+                out = views.as_bits(v, f)
+            elif view == "uniforms":
+                out = views.as_uniforms(v, f)
+            elif view == "integers":
+                out = views.as_integers(v, f, k if f.kind != "text-integers" else None)
+            else:
+                raise ValueError(f"unknown view {view!r}")
+            self._cache[key] = out
+        return self._cache[key]
+
+
+def call_check(pc: PlannedCheck, cache: ViewCache) -> list[CheckResult]:
+    """Run one planned check on one segment's views; always returns a list of results."""
+    spec = load_all()[pc.key]
+    params = dict(pc.params)
+    need = pc.values
+    if pc.view == "bits":
+        packed, nbits = cache.get("bits")
+        nb = min(nbits, need)
+        res = spec.func(packed[: -(-nb // 8)], **params)
+    elif pc.view == "integers":
+        x, k = cache.get("integers", params.get("k"))
+        params["k"] = k
+        res = spec.func(x[:need], **params)
+    else:
+        res = spec.func(cache.get(pc.view)[:need], **params)
+    if isinstance(res, CheckResult):
+        return [res]
+    return list(res)
+
+
+def _run_segment_task(vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]) -> list[tuple[list[CheckResult] | None, str | None, float]]:
+    cache = ViewCache(vals, fmt)
+    out = []
+    for pc in checks:
+        t = time.perf_counter()
+        try:
+            out.append((call_check(pc, cache), None, time.perf_counter() - t))
+        except Exception as e:  # one broken check must not take the others down
+            out.append((None, f"{type(e).__name__}: {e}", time.perf_counter() - t))
+    return out
+
+
+class Executor:
+    """In-process (workers=1) or a process pool; same results either way."""
+
+    def __init__(self, workers: int | None = None):
+        self.workers = workers or os.cpu_count() or 1
+        self._pool: cf.ProcessPoolExecutor | None = None
+
+    def __enter__(self):
+        if self.workers > 1:
+            import multiprocessing as mp
+
+            ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
+            self._pool = cf.ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx)
+        return self
+
+    def __exit__(self, *exc):
+        if self._pool is not None:
+            self._pool.shutdown(wait=exc[0] is None, cancel_futures=True)
+
+    def run_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]):
+        """Run checks on one segment; the checks are spread over the workers in fixed slices."""
+        if self._pool is None or len(checks) < 2:
+            return _run_segment_task(vals, fmt, checks)
+        w = min(self.workers, len(checks))
+        # interleaved slices balance expensive and cheap checks; results are put back in plan order
+        slices = [list(range(i, len(checks), w)) for i in range(w)]
+        futs = [self._pool.submit(_run_segment_task, vals, fmt, [checks[j] for j in s]) for s in slices]
+        out: list[Any] = [None] * len(checks)
+        for s, fut in zip(slices, futs):
+            for j, r in zip(s, fut.result()):
+                out[j] = r
+        return out
+
+
+def run_plan(
+    stream: Stream,
+    plan: Plan,
+    executor: Executor,
+    checks: list[PlannedCheck] | None = None,
+    progress: Callable[[str], None] | None = None,
+) -> tuple[list[Outcome], bool, str | None]:
+    """Run (a subset of) the plan's checks over ``plan.segments`` fresh segments of the stream.
+
+    Returns (outcomes in plan order, complete?, reason when incomplete). Ctrl-C and a source that
+    dies mid-run end the run early: what finished is kept and the run is marked incomplete.
+    """
+    from ..errors import InputError
+
+    todo = list(checks if checks is not None else plan.checks)
+    outcomes = [Outcome(pc, [None] * pc.replicates) for pc in todo]
+    reason = None
+    try:
+        if plan.shared:
+            for j in range(plan.segments):
+                if progress:
+                    progress(f"segment {j + 1}/{plan.segments}: {len(todo)} checks")
+                vals = _read_segment(stream, plan)
+                active = [o for o in outcomes if j < o.check.replicates]
+                for o, (res, err, sec) in zip(active, executor.run_segment(vals, plan.fmt, [o.check for o in active])):
+                    o.bytes += o.check.bytes
+                    o.seconds += sec
+                    o.results[j] = res
+                    if err:
+                        o.errors.append(f"replicate {j + 1}: {err}")
+        else:
+            for j in range(plan.segments):
+                if progress:
+                    progress(f"replicate {j + 1}/{plan.segments}: {len(todo)} checks on fresh data")
+                batch = []
+                active = [o for o in outcomes if j < o.check.replicates]
+                for o in active:
+                    n = o.check.bytes // plan.fmt.itemsize if plan.fmt.is_binary else o.check.bytes
+                    vals = stream.read_values(n)
+                    if vals.size < n:
+                        raise InputError(
+                            f"the source ended after {stream.bytes_read} bytes; this plan reads "
+                            f"{plan.bytes_total()} bytes (fresh data for every check)",
+                            stream.source.where,
+                            "give a smaller --budget or make the source produce more",
+                        )
+                    batch.append(vals)
+                    o.bytes += o.check.bytes
+                # fresh data per check: run each on its own data, spread over the workers
+                results = _run_fresh(executor, batch, plan.fmt, [o.check for o in active])
+                for o, (res, err, sec) in zip(active, results):
+                    o.seconds += sec
+                    o.results[j] = res
+                    if err:
+                        o.errors.append(f"replicate {j + 1}: {err}")
+    except KeyboardInterrupt:
+        reason = "interrupted"
+    except InputError as e:
+        # bad or missing data mid-run: keep what finished, and let the caller report the error
+        e.partial = outcomes  # type: ignore[attr-defined]
+        raise
+    except cf.process.BrokenProcessPool:
+        reason = "a worker process died"
+    return outcomes, reason is None, reason
+
+
+def _run_fresh(executor: Executor, batch: list[np.ndarray], fmt: Format, checks: list[PlannedCheck]):
+    if executor._pool is None:
+        return [_run_segment_task(v, fmt, [pc])[0] for v, pc in zip(batch, checks)]
+    futs = [executor._pool.submit(_run_segment_task, v, fmt, [pc]) for v, pc in zip(batch, checks)]
+    return [f.result()[0] for f in futs]
+
+
+def _read_segment(stream: Stream, plan: Plan) -> np.ndarray:
+    if plan.fmt.is_binary:
+        return stream.read_exact(plan.segment_bytes // plan.fmt.itemsize)
+    return stream.read_exact(plan.segment_bytes)

@@ -1,0 +1,275 @@
+"""Frequency-type bit checks: monobit, block frequency, cumulative sums, m-bit poker.
+
+Null hypothesis throughout: the bits are independent and each is 1 with probability 1/2.
+Methods: NIST SP 800-22 Rev. 1a §2.1, §2.2, §2.13; poker test of FIPS 140-2 §4.9.1 generalised
+to m-bit symbols.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+from scipy import special, stats
+
+from rngassay.checks.registry import CheckSpec, register
+from rngassay.checks.result import CheckResult
+from rngassay.errors import InputError
+
+from ._common import as_packed, block_ones, byte_histogram, clip_p, count_ones, erfc_p, igamc, need, to_u64
+
+SP800_22 = "NIST SP 800-22 Rev. 1a (2010)"
+
+
+def monobit_frequency(packed: np.ndarray, n_bits: int | None = None) -> CheckResult:
+    """Frequency (monobit) test, SP 800-22 §2.1.
+
+    H0: ones and zeros are equally likely.  S = #ones - #zeros, statistic |S|/sqrt(n),
+    p = erfc(|S| / sqrt(2n)) (two-sided).  ``p_left`` is not used: both signs are in the statistic.
+    """
+    packed, n = as_packed(packed, n_bits)
+    need(n, 1, "monobit frequency")
+    ones = count_ones(packed, n)
+    s = 2 * ones - n
+    s_obs = abs(s) / math.sqrt(n)
+    return CheckResult(
+        name="monobit frequency", statistic=s_obs, p_value=erfc_p(s_obs),
+        null="|N(0,1)|", kind="continuous", n=n, details={"ones": ones, "sum": s},
+    )
+
+
+def block_frequency(packed: np.ndarray, n_bits: int | None = None, M: int = 128) -> CheckResult:
+    """Frequency test within blocks, SP 800-22 §2.2.
+
+    H0: the proportion of ones in each of N = n // M blocks is 1/2.
+    chi2 = 4 M sum (pi_i - 1/2)^2 ~ chi2(N); p = Q(N/2, chi2/2).  Bits past N*M are unused.
+    """
+    packed, n = as_packed(packed, n_bits)
+    M = int(M)
+    if M < 1:
+        raise InputError(f"block frequency: M must be >= 1, got {M}")
+    N = n // M
+    if N < 1:
+        raise InputError(f"block frequency needs at least one block of M={M} bits, got {n} bits")
+    w = to_u64(packed, N * M)
+    ones = block_ones(w, 0, M, N)
+    pi = ones / M
+    chi2 = float(4.0 * M * np.sum((pi - 0.5) ** 2))
+    return CheckResult(
+        name="block frequency", statistic=chi2, p_value=igamc(N / 2.0, chi2 / 2.0),
+        null=f"chi2(df={N})", kind="continuous", n=N * M, details={"M": M, "blocks": N},
+    )
+
+
+# --------------------------------------------------------------------------- cumulative sums
+
+_BYTE_SUM = np.array([2 * bin(b).count("1") - 8 for b in range(256)], dtype=np.int64)
+
+
+def _prefix_tables() -> tuple[np.ndarray, np.ndarray]:
+    mx = np.empty(256, dtype=np.int64)
+    mn = np.empty(256, dtype=np.int64)
+    for b in range(256):
+        s, hi, lo = 0, -9, 9
+        for j in range(8):
+            s += 1 if (b >> (7 - j)) & 1 else -1
+            hi, lo = max(hi, s), min(lo, s)
+        mx[b], mn[b] = hi, lo
+    return mx, mn
+
+
+_BYTE_MAX, _BYTE_MIN = _prefix_tables()
+
+
+@njit(cache=True)
+def _walk_extremes(packed, n_bits, bsum, bmax, bmin):
+    """(S_n, max S_k, min S_k) over k in [0, n] with S_0 = 0, S_k = sum of (2 x_i - 1)."""
+    s = 0
+    hi = 0
+    lo = 0
+    full = n_bits // 8
+    for i in range(full):
+        b = packed[i]
+        v = s + bmax[b]
+        if v > hi:
+            hi = v
+        v = s + bmin[b]
+        if v < lo:
+            lo = v
+        s += bsum[b]
+    rem = n_bits - 8 * full
+    if rem:
+        b = packed[full]
+        for j in range(rem):
+            s += 1 if (b >> (7 - j)) & 1 else -1
+            if s > hi:
+                hi = s
+            if s < lo:
+                lo = s
+    return s, hi, lo
+
+
+def cusum_p_value(z: int, n: int) -> float:
+    """P(max |S_k| >= z) for the symmetric walk of n steps, SP 800-22 §2.13.4 step (4).
+
+    The standard's series (same summation limits), with every term rewritten as a difference of
+    normal *upper* tails so that small p-values keep their relative accuracy (no 1 - cdf).
+    """
+    if z <= 0:
+        return 1.0
+    sq = math.sqrt(n)
+    a = z / sq
+    nz = n / z
+
+    def q(x: np.ndarray) -> np.ndarray:  # upper normal tail Q(x)
+        return special.ndtr(-x)
+
+    # first sum: k from floor((-n/z + 1)/4) to floor((n/z - 1)/4), terms Phi((4k+1)a) - Phi((4k-1)a)
+    k1 = np.arange(math.floor((-nz + 1) / 4), math.floor((nz - 1) / 4) + 1, dtype=np.float64)
+    # second sum: k from floor((-n/z - 3)/4) to floor((n/z - 1)/4), terms Phi((4k+3)a) - Phi((4k+1)a)
+    k2 = np.arange(math.floor((-nz - 3) / 4), math.floor((nz - 1) / 4) + 1, dtype=np.float64)
+
+    def diff(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+        # Phi(hi) - Phi(lo) for lo < hi, from upper tails on the side where they are small
+        pos = lo >= 0
+        out = np.where(pos, q(lo) - q(hi), special.ndtr(hi) - special.ndtr(lo))
+        neg = hi <= 0
+        return np.where(neg, q(-hi) - q(-lo), out)
+
+    t1 = diff((4 * k1 - 1) * a, (4 * k1 + 1) * a)
+    t2 = diff((4 * k2 + 1) * a, (4 * k2 + 3) * a)
+    # 1 - sum(t1): the k = 0 term is 1 - 2Q(a); the others are small.
+    zero = k1 == 0
+    if zero.any():
+        one_minus_s1 = 2.0 * float(q(np.array(a))) - float(np.sum(t1[~zero]))
+    else:  # only for tiny n, where the range misses k = 0
+        one_minus_s1 = 1.0 - float(np.sum(t1))
+    p = float(one_minus_s1) + float(np.sum(t2))
+    return clip_p(p)
+
+
+def cumulative_sums(packed: np.ndarray, n_bits: int | None = None,
+                    direction: str = "forward") -> CheckResult:
+    """Cumulative sums (cusum) test, SP 800-22 §2.13.
+
+    H0: the random walk S_k = sum (2 x_i - 1) behaves like a fair-coin walk.  The statistic is
+    z = max_k |S_k| over the forward partial sums, or over the sums taken from the end
+    (``direction="backward"``); the p-value is the walk's exact-limit tail of §2.13.4.
+    """
+    packed, n = as_packed(packed, n_bits)
+    need(n, 1, "cumulative sums")
+    if direction not in ("forward", "backward"):
+        raise InputError(f"cumulative sums: direction must be 'forward' or 'backward', got {direction!r}")
+    s, hi, lo = _walk_extremes(packed, n, _BYTE_SUM, _BYTE_MAX, _BYTE_MIN)
+    if direction == "forward":
+        z = max(hi, -lo)
+    else:
+        z = max(s - lo, hi - s)
+    return CheckResult(
+        name="cumulative sums", statistic=float(z), p_value=cusum_p_value(int(z), n),
+        null="max |walk| of a fair-coin walk", kind="continuous", n=n,
+        details={"direction": direction, "z": int(z), "final_sum": int(s)},
+    )
+
+
+# --------------------------------------------------------------------------- poker (m-bit symbols)
+
+
+@njit(cache=True)
+def _symbol_counts(w, m, k):
+    counts = np.zeros(1 << m, dtype=np.int64)
+    for i in range(k):
+        pos = i * m
+        wi = pos >> 6
+        sh = pos & 63
+        if sh == 0:
+            v = w[wi]
+        else:
+            v = (w[wi] << np.uint64(sh)) | (w[wi + 1] >> np.uint64(64 - sh))
+        counts[int(v >> np.uint64(64 - m))] += 1
+    return counts
+
+
+def poker_symbols(packed: np.ndarray, n_bits: int | None = None, m: int = 4) -> CheckResult:
+    """Poker test on non-overlapping m-bit symbols (FIPS 140-2 §4.9.1 uses m = 4 on 20,000 bits).
+
+    H0: the k = n // m symbols are uniform on 2^m values.  X = (2^m / k) sum f_i^2 - k, which is
+    Pearson's chi-square, ~ chi2(2^m - 1).  Right tail in ``p_value``; the left tail (too even a
+    spread, which the FIPS interval also rejects) in ``p_left``.
+    """
+    packed, n = as_packed(packed, n_bits)
+    m = int(m)
+    if not 1 <= m <= 16:
+        raise InputError(f"poker: m must be in 1..16, got {m}")
+    k = n // m
+    if k < 1:
+        raise InputError(f"poker needs at least {m} bits")
+    if m in (4, 8) and (k * m) % 8 == 0:  # whole bytes: one byte histogram
+        h = byte_histogram(packed, k * m // 8)
+        counts = h if m == 8 else h.reshape(16, 16).sum(axis=1) + h.reshape(16, 16).sum(axis=0)
+    else:
+        counts = _symbol_counts(to_u64(packed, k * m), m, k)
+    x = float((2**m / k) * np.sum(counts.astype(np.float64) ** 2) - k)
+    df = 2**m - 1
+    return CheckResult(
+        name="poker", statistic=x, p_value=clip_p(stats.chi2.sf(x, df)),
+        p_left=clip_p(stats.chi2.cdf(x, df)), null=f"chi2(df={df})", kind="continuous",
+        n=k * m, details={"m": m, "symbols": k, "counts": counts.tolist() if m <= 8 else None},
+    )
+
+
+# --------------------------------------------------------------------------- registry
+
+
+def _n(params: dict) -> int:
+    return int(params["n_bits"])
+
+
+register(CheckSpec(
+    key="monobit frequency", family="bits", title="frequency (monobit) test", view="bits",
+    kind="continuous", func=monobit_frequency, values_needed=_n,
+    default_params=lambda n: [{"n_bits": n}] if n >= 100 else [],
+    source=f"{SP800_22} §2.1",
+))
+
+
+def _block_frequency_defaults(n: int) -> list[dict]:
+    # SP 800-22 §2.2.7: n >= 100, M >= 20, M > 0.01 n, N < 100
+    if n < 100:
+        return []
+    M = max(20, n // 99 + 1)
+    N = n // M
+    return [{"n_bits": N * M, "M": M}]
+
+
+register(CheckSpec(
+    key="block frequency", family="bits", title="frequency test within a block", view="bits",
+    kind="continuous", func=block_frequency, values_needed=_n,
+    default_params=_block_frequency_defaults, source=f"{SP800_22} §2.2",
+))
+
+register(CheckSpec(
+    key="cumulative sums", family="bits", title="cumulative sums test", view="bits",
+    kind="continuous", func=cumulative_sums, values_needed=_n,
+    default_params=lambda n: ([{"n_bits": n, "direction": "forward"},
+                               {"n_bits": n, "direction": "backward"}] if n >= 100 else []),
+    source=f"{SP800_22} §2.13",
+    notes="two registered variants: direction=forward and direction=backward",
+))
+
+
+def _poker_defaults(n: int) -> list[dict]:
+    out = []
+    for m in (4, 8):
+        k = n // m
+        if k >= 5 * 2**m * 4:  # >= 20 expected per cell (FIPS: 5000 nibbles, 312 per cell)
+            out.append({"n_bits": k * m, "m": m})
+    return out
+
+
+register(CheckSpec(
+    key="poker bit symbols", family="bits", title="poker test on m-bit symbols", view="bits",
+    kind="continuous", func=poker_symbols, values_needed=_n, default_params=_poker_defaults,
+    both_tails=True, source="FIPS 140-2 (2001) §4.9.1 (m = 4); Pearson chi-square on m-bit symbols",
+))

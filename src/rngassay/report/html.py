@@ -1,0 +1,310 @@
+"""The HTML report: one self-contained file.
+
+Figures are embedded as base64 ``data:`` URIs and the style sheet is inline; the page loads nothing from
+outside and runs no script (a Content-Security-Policy in the page says so to the browser as well). Every
+string that came from the input or the run (source names, paths, check ids, parameters, notes, errors) goes
+through :func:`html.escape` before it is written.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import math
+from typing import Any
+
+from ..sizes import format_size
+from .model import GRADES, CheckReport, Report
+
+P_TINY = 1e-300
+
+
+def format_p(p: float | None) -> str:
+    """A p-value in scientific notation with 3 significant digits, never shown as 0.
+
+    None -> "—" (not computed); NaN/inf -> "n/a"; p <= 0 (an underflow) -> "< 1e-300".
+    """
+    if p is None:
+        return "\u2014"
+    try:
+        p = float(p)
+    except (TypeError, ValueError):
+        return "n/a"
+    if not math.isfinite(p):
+        return "n/a"
+    if p <= 0.0:
+        return f"< {P_TINY:.0e}"
+    return f"{p:.2e}"
+
+
+def format_params(params: Any) -> str:
+    """Parameters as ``key=value`` pairs separated by commas (not escaped)."""
+    if isinstance(params, dict):
+        return ", ".join(f"{k}={_value(v)}" for k, v in params.items())
+    return "" if params is None else str(params)
+
+
+def _value(v: Any) -> str:
+    if isinstance(v, float):
+        return f"{v:g}"
+    if isinstance(v, (list, tuple)):
+        return "[" + ", ".join(_value(x) for x in v) + "]"
+    return str(v)
+
+
+def format_count(n: Any) -> str:
+    """An exact byte count with thousands separators."""
+    try:
+        return f"{int(n):,}"
+    except (TypeError, ValueError):
+        return str(n)
+
+
+def _e(x: Any) -> str:
+    return html.escape("" if x is None else str(x), quote=True)
+
+
+def _bytes_cell(n: Any) -> str:
+    try:
+        human = format_size(int(n)) if int(n) > 0 else ""
+    except (TypeError, ValueError):
+        human = ""
+    small = f"<br><small>{_e(human)}</small>" if human and not human.endswith(" B") else ""
+    return f'<td class="num">{_e(format_count(n))}{small}</td>'
+
+
+def _grade_cell(grade: str) -> str:
+    cls = f"g-{grade}" if grade in GRADES else "g-other"
+    return f'<td><span class="grade {cls}">{_e(grade)}</span></td>'
+
+
+_CSS = """
+:root { --ink:#1f2328; --muted:#5b6570; --line:#d8dde3; --bg:#fbfbfa;
+        --pass:#2f7350; --borderline:#a86d07; --fail:#a8322b; }
+* { box-sizing: border-box; }
+body { margin: 0 auto; max-width: 1100px; padding: 1.2rem 1.4rem 3rem; color: var(--ink); background: var(--bg);
+       font: 14px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; }
+h1 { font-size: 1.25rem; margin: 0 0 .2rem; }
+h2 { font-size: 1.05rem; margin: 2rem 0 .6rem; padding-bottom: .2rem; border-bottom: 1px solid var(--line); }
+.banner { display: flex; gap: 1.5rem; align-items: center; padding: .9rem 1.1rem; border-radius: 6px;
+          border: 1px solid var(--line); background: #fff; }
+.banner .word { font-size: 2rem; font-weight: 700; letter-spacing: .02em; }
+.banner.v-pass .word { color: var(--pass); } .banner.v-borderline .word { color: var(--borderline); }
+.banner.v-fail .word { color: var(--fail); }
+.banner.v-pass { border-left: 8px solid var(--pass); } .banner.v-borderline { border-left: 8px solid var(--borderline); }
+.banner.v-fail { border-left: 8px solid var(--fail); }
+.banner .facts { color: var(--muted); }
+.incomplete { margin: .8rem 0; padding: .6rem .9rem; background: #fff4d6; border: 1px solid #e7c66a; border-radius: 6px; }
+dl.kv { display: grid; grid-template-columns: max-content 1fr; gap: .15rem 1rem; margin: 0; }
+dl.kv dt { color: var(--muted); } dl.kv dd { margin: 0; overflow-wrap: anywhere; }
+code, .mono { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, monospace; font-size: .92em; }
+table { border-collapse: collapse; width: 100%; background: #fff; }
+th, td { text-align: left; padding: .3rem .5rem; border-bottom: 1px solid var(--line); vertical-align: top; }
+th { font-weight: 600; color: var(--muted); font-size: .9em; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+td small { color: var(--muted); }
+tr.err td { color: var(--fail); font-size: .92em; border-top: 0; }
+.grade { display: inline-block; min-width: 5.5em; text-align: center; padding: 0 .4em; border-radius: 3px;
+         color: #fff; font-size: .9em; }
+.g-pass { background: var(--pass); } .g-borderline { background: var(--borderline); }
+.g-fail { background: var(--fail); } .g-other { background: var(--muted); }
+.figs { display: grid; grid-template-columns: repeat(auto-fit, minmax(320px, 1fr)); gap: 1rem; }
+figure { margin: 0; padding: .6rem; background: #fff; border: 1px solid var(--line); border-radius: 6px; }
+figure.wide { grid-column: 1 / -1; }
+figure img { max-width: 100%; height: auto; display: block; margin: 0 auto; }
+figcaption { color: var(--muted); font-size: .88em; margin-top: .4rem; }
+ul.cautions li { margin-bottom: .3rem; }
+footer { margin-top: 2.5rem; color: var(--muted); font-size: .85em; }
+"""
+
+_CSP = "default-src 'none'; img-src data:; style-src 'unsafe-inline'"
+
+
+def _img(png: bytes, alt: str) -> str:
+    data = base64.b64encode(png).decode("ascii")
+    return f'<img src="data:image/png;base64,{data}" alt="{_e(alt)}">'
+
+
+def _header(r: Report) -> list[str]:
+    src = r.source or {}
+    verdict = r.verdict if r.verdict in GRADES else "other"
+    counts = {g: sum(1 for c in r.checks if c.grade == g) for g in GRADES}
+    tally = ", ".join(f"{counts[g]} {g}" for g in GRADES)
+    out = [
+        f"<h1>rngassay report: {_e(src.get('name', 'unnamed source'))}</h1>",
+        f'<section class="banner v-{verdict}" aria-label="verdict">',
+        f'<div class="word">{_e(r.verdict)}</div>',
+        '<div class="facts">',
+        f"<div>combined p = <strong>{_e(format_p(r.combined_p))}</strong> <small>({_e(r.combined_method)})</small></div>",
+        f"<div>{len(r.checks)} checks: {_e(tally)}; alpha = {_e(f'{r.alpha:g}')}</div>",
+        "</div></section>",
+    ]
+    if r.incomplete:
+        out.append(
+            '<div class="incomplete"><strong>incomplete</strong> \u2014 the run stopped early; this report covers '
+            "only the checks that finished, and the verdict rests on them alone.</div>"
+        )
+    out.append("<h2>Run</h2>")
+    out.append('<dl class="kv">')
+    rows: list[tuple[str, str]] = [
+        ("source kind", _e(src.get("kind", ""))),
+        ("source name", f'<span class="mono">{_e(src.get("name", ""))}</span>'),
+        ("format", f'<span class="mono">{_e(src.get("format", ""))}</span>'),
+        ("bytes read", _bytes_text(src.get("bytes_read"))),
+        ("SHA-256", f'<span class="mono">{_e(src.get("sha256", ""))}</span>'),
+    ]
+    known = {"kind", "name", "format", "bytes_read", "sha256"}
+    rows += [(str(k), _e(_value(v))) for k, v in src.items() if k not in known]
+    rows += [
+        ("budget", _bytes_text(r.budget_bytes)),
+        ("alpha", _e(f"{r.alpha:g}")),
+        ("elapsed", _e(f"{r.elapsed_s:.2f} s")),
+        ("command", f'<span class="mono">{_e(r.command)}</span>'),
+    ]
+    rows += [(f"setting: {k}", _e(_value(v))) for k, v in (r.settings or {}).items()]
+    out += [f"<dt>{_e(k)}</dt><dd>{v}</dd>" for k, v in rows]
+    out.append("</dl>")
+    return out
+
+
+def _bytes_text(n: Any) -> str:
+    if n is None:
+        return "\u2014"
+    try:
+        human = format_size(int(n)) if int(n) > 0 else ""
+    except (TypeError, ValueError):
+        return _e(n)
+    return _e(f"{format_count(n)} bytes" + (f" ({human})" if human and not human.endswith(" B") else ""))
+
+
+def _rounds_text(c: CheckReport) -> str:
+    return " \u2192 ".join(f"{format_p(rd.p_value)} ({rd.replicates}\u00d7)" for rd in c.rounds)
+
+
+def _check_table(r: Report) -> list[str]:
+    if not r.checks:
+        return ["<h2>Checks</h2>", "<p>No checks ran.</p>"]
+    show_rounds = any(len(c.rounds) > 1 for c in r.checks)
+    head = ["check", "family", "parameters", "p-value", "Holm-adjusted p", "grade", "bytes", "replicates"]
+    if show_rounds:
+        head.append("rounds (p, replicates)")
+    num = {"p-value", "Holm-adjusted p", "bytes", "replicates"}
+    out = [
+        "<h2>Checks, worst first</h2>",
+        "<table class=\"checks\"><thead><tr>"
+        + "".join(f'<th class="num">{h}</th>' if h in num else f"<th>{h}</th>" for h in head)
+        + "</tr></thead><tbody>",
+    ]
+    for c in r.worst_first():
+        tip = " \u2014 ".join(x for x in (c.title, f"null: {c.null}" if c.null else "") if x)
+        cells = [
+            f'<td class="mono" title="{_e(tip)}">{_e(c.id)}</td>',
+            f"<td>{_e(c.family)}</td>",
+            f'<td class="mono">{_e(format_params(c.params))}</td>',
+            f'<td class="num">{_e(format_p(c.p_value))}</td>',
+            f'<td class="num">{_e(format_p(c.adjusted_p))}</td>',
+            _grade_cell(c.grade),
+            _bytes_cell(c.bytes),
+            f'<td class="num">{_e(c.replicates)}</td>',
+        ]
+        if show_rounds:
+            cells.append(f"<td class=\"mono\">{_e(_rounds_text(c)) if len(c.rounds) > 1 else ''}</td>")
+        out.append("<tr>" + "".join(cells) + "</tr>")
+        if c.error:
+            out.append(f'<tr class="err"><td colspan="{len(head)}">could not run: {_e(c.error)}</td></tr>')
+    out.append("</tbody></table>")
+    return out
+
+
+_CAPTIONS = {
+    "histogram": (
+        "Histogram of replicate p-values",
+        "All first-level replicate p-values in 20 bins; the dashed line is the count expected per bin if they "
+        "are uniform. A pile-up near 0 means evidence against randomness; a pile-up near 1 (or a gap) can mean "
+        "a stream that is too regular, or a discrete statistic.",
+    ),
+    "qq": (
+        "Uniform Q-Q plot",
+        "Sorted replicate p-values against their expected uniform positions, with a pointwise 95% band. "
+        "Points below the band at the left mean too many small p-values.",
+    ),
+    "bars": (
+        "Evidence per check",
+        "−log10 of each check's p-value, strongest evidence at the top, coloured by grade. The dashed line is "
+        "the run's alpha; the dotted line is the cut of Holm's step-down procedure at that alpha across all checks.",
+    ),
+    "heatmap": (
+        "Replicates by check",
+        "Rows are checks (worst first), columns their replicates over all rounds; darker means a smaller "
+        "p-value. A dark column shared by many checks points at one bad segment of the stream.",
+    ),
+}
+
+
+def _figures(r: Report) -> list[str]:
+    from . import figures  # matplotlib is imported only when figures are drawn
+
+    figs = figures.all_figures(r)
+    out = ["<h2>Figures</h2>", '<div class="figs">']
+    for name, png in figs.items():
+        title, caption = _CAPTIONS[name]
+        cls = ' class="wide"' if name in ("bars", "heatmap") else ""
+        out.append(f"<figure{cls}>{_img(png, title)}<figcaption><strong>{_e(title)}.</strong> {_e(caption)}</figcaption></figure>")
+    out.append("</div>")
+    return out
+
+
+def _plan(r: Report) -> list[str]:
+    if not r.plan:
+        return []
+    out = [
+        "<h2>Plan</h2>",
+        "<table class=\"plan\"><thead><tr><th>check</th><th>family</th><th>parameters</th><th>view</th>"
+        '<th class="num">bytes</th><th class="num">replicates</th></tr></thead><tbody>',
+    ]
+    for item in r.plan:
+        item = item if isinstance(item, dict) else {"id": item}
+        out.append(
+            "<tr>"
+            f'<td class="mono">{_e(item.get("id", ""))}</td>'
+            f"<td>{_e(item.get('family', ''))}</td>"
+            f'<td class="mono">{_e(format_params(item.get("params", {})))}</td>'
+            f"<td>{_e(item.get('view', ''))}</td>"
+            f"{_bytes_cell(item.get('bytes', ''))}"
+            f'<td class="num">{_e(item.get("replicates", ""))}</td>'
+            "</tr>"
+        )
+    out.append("</tbody></table>")
+    return out
+
+
+def _list(title: str, items: list[str], cls: str = "") -> list[str]:
+    if not items:
+        return []
+    c = f' class="{cls}"' if cls else ""
+    return [f"<h2>{title}</h2>", f"<ul{c}>"] + [f"<li>{_e(x)}</li>" for x in items] + ["</ul>"]
+
+
+def render_html(report: Report) -> str:
+    """Render the report as one self-contained HTML page (no external resources, no scripts)."""
+    r = report
+    name = (r.source or {}).get("name", "unnamed source")
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        f'<meta http-equiv="Content-Security-Policy" content="{_CSP}">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>rngassay report \u2014 {_e(r.verdict)} \u2014 {_e(name)}</title>",
+        f"<style>{_CSS}</style></head><body>",
+    ]
+    parts += _header(r)
+    parts += _check_table(r)
+    parts += _figures(r)
+    parts += _plan(r)
+    parts += _list("Notes", list(r.notes))
+    parts += _list("Cautions", list(r.cautions), "cautions")
+    parts.append(
+        f"<footer>rngassay {_e(r.tool_version)} \u00b7 report schema {_e(r.schema)}</footer>"
+    )
+    parts.append("</body></html>")
+    return "\n".join(parts) + "\n"

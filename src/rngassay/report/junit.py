@@ -1,0 +1,113 @@
+"""JUnit XML for continuous-integration servers: one ``<testcase>`` per check.
+
+Mapping (so that a CI job turns red exactly when the assay found a failure):
+
+- grade ``pass``        -> a passing testcase;
+- grade ``borderline``  -> a passing testcase with a ``<system-out>`` saying it is borderline and why
+  (not ``<skipped>``: the check did run, and skipped cases are easy to overlook or are treated as
+  "not run" by CI dashboards; use ``--strict`` at the command line to make borderline fail the job);
+- grade ``fail``        -> a ``<failure>`` whose message gives the p-value and the Holm-adjusted p-value;
+- a check that could not run (``error`` set) -> an ``<error>`` element with the reason.
+
+The suite is named ``rngassay``; its ``<properties>`` record the source (``source.sha256``,
+``source.bytes_read``, ``source.kind``, ``source.name``, ``source.format``) and the run (``verdict``,
+``combined_p``, ``alpha``, ``budget_bytes``, ``incomplete``, ``tool_version``). Text is escaped by
+:mod:`xml.etree.ElementTree`; characters that XML 1.0 cannot carry at all are replaced by U+FFFD.
+"""
+
+from __future__ import annotations
+
+import re
+import xml.etree.ElementTree as ET
+from typing import Any
+
+from .html import format_p, format_params
+from .model import CheckReport, Report
+
+_NOT_XML = re.compile("[^\u0009\u000a\u000d\u0020-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]")
+
+
+def _x(s: Any) -> str:
+    """Text safe for XML 1.0 (ElementTree escapes <, >, & and quotes; it does not remove control characters)."""
+    return _NOT_XML.sub("\ufffd", "" if s is None else str(s))
+
+
+def _message(c: CheckReport) -> str:
+    return f"p = {format_p(c.p_value)}, Holm-adjusted p = {format_p(c.adjusted_p)}"
+
+
+def _details(c: CheckReport) -> str:
+    lines = [
+        f"check: {c.id}",
+        f"family: {c.family}",
+        f"parameters: {format_params(c.params)}",
+        f"grade: {c.grade}",
+        f"p-value: {format_p(c.p_value)}",
+        f"Holm-adjusted p-value: {format_p(c.adjusted_p)}",
+        f"bytes: {c.bytes}",
+        f"replicates: {c.replicates}",
+    ]
+    if len(c.rounds) > 1:
+        lines.append(
+            "rounds: " + "; ".join(f"{i + 1}: p = {format_p(r.p_value)} over {r.replicates} replicates"
+                                   for i, r in enumerate(c.rounds))
+        )
+    if c.null:
+        lines.append(f"null hypothesis: {c.null}")
+    return "\n".join(lines)
+
+
+def render_junit(report: Report) -> str:
+    """The report as a JUnit XML document (a string starting with the XML declaration)."""
+    r = report
+    src = r.source or {}
+    n_fail = sum(1 for c in r.checks if c.grade == "fail" and not c.error)
+    n_err = sum(1 for c in r.checks if c.error)
+    root = ET.Element(
+        "testsuites",
+        {"name": "rngassay", "tests": str(len(r.checks)), "failures": str(n_fail), "errors": str(n_err),
+         "time": f"{r.elapsed_s:.3f}"},
+    )
+    suite = ET.SubElement(
+        root,
+        "testsuite",
+        {"name": "rngassay", "tests": str(len(r.checks)), "failures": str(n_fail), "errors": str(n_err),
+         "skipped": "0", "time": f"{r.elapsed_s:.3f}"},
+    )
+    props = ET.SubElement(suite, "properties")
+    values = [
+        ("source.sha256", src.get("sha256", "")),
+        ("source.bytes_read", src.get("bytes_read", "")),
+        ("source.kind", src.get("kind", "")),
+        ("source.name", src.get("name", "")),
+        ("source.format", src.get("format", "")),
+        ("verdict", r.verdict),
+        ("combined_p", format_p(r.combined_p)),
+        ("alpha", f"{r.alpha:g}"),
+        ("budget_bytes", r.budget_bytes),
+        ("incomplete", "true" if r.incomplete else "false"),
+        ("tool_version", r.tool_version),
+    ]
+    for name, value in values:
+        ET.SubElement(props, "property", {"name": name, "value": _x(value)})
+    for c in r.worst_first():
+        case = ET.SubElement(suite, "testcase", {"classname": _x(f"rngassay.{c.family}"), "name": _x(c.id)})
+        if c.error:
+            el = ET.SubElement(case, "error", {"message": _x(f"could not run: {c.error}"), "type": "error"})
+            el.text = _x(_details(c))
+        elif c.grade == "fail":
+            el = ET.SubElement(case, "failure", {"message": _x(_message(c)), "type": "fail"})
+            el.text = _x(_details(c))
+        elif c.grade == "borderline":
+            out = ET.SubElement(case, "system-out")
+            out.text = _x(
+                f"borderline: {_message(c)}. The evidence is not strong enough to fail this check but is "
+                "stronger than a pass; more data (a larger budget) can settle it.\n" + _details(c)
+            )
+    summary = [f"verdict: {r.verdict}", f"combined p = {format_p(r.combined_p)} ({r.combined_method})"]
+    if r.incomplete:
+        summary.append("incomplete: the run stopped early; only the checks that finished are listed.")
+    summary += list(r.notes) + list(r.cautions)
+    ET.SubElement(suite, "system-out").text = _x("\n".join(summary))
+    ET.indent(root, space="  ")
+    return '<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(root, encoding="unicode") + "\n"

@@ -1,0 +1,141 @@
+"""The report: what a run found, as plain data that every renderer (terminal, JSON, HTML, JUnit) reads.
+
+The JSON form is versioned (``schema``); :func:`Report.from_dict` reads it back for ``rngassay diff``.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+from .. import __version__
+
+SCHEMA = "rngassay-report/1"
+GRADES = ("pass", "borderline", "fail")
+
+CAUTIONS = (
+    "A pass means these checks found no evidence against randomness at the sample size used; it is not a proof.",
+    "Statistical tests cannot prove unpredictability: a stream can pass every check and still be predictable "
+    "to anyone who knows the generator's design or state.",
+    "For gaming or cryptographic use, defer to the applicable technical standards, local regulation and "
+    "accredited test laboratories.",
+)
+
+
+@dataclass
+class Round:
+    """One round of a check: its replicates on disjoint segments, and the second-level result."""
+
+    replicates: int
+    bytes: int
+    p_value: float  # the check's p-value for this round (second level over replicates)
+    replicate_p: list[float] = field(default_factory=list)  # first-level p-values (two-sided where both tails count)
+    statistic: float | None = None  # first replicate's statistic, or the pooled statistic for discrete checks
+    second_level: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass
+class CheckReport:
+    id: str
+    key: str
+    family: str
+    params: dict[str, Any]
+    view: str
+    kind: str
+    statistic: float | None
+    p_value: float  # final p-value of the check (its last round)
+    grade: str
+    bytes: int  # bytes of the stream this check consumed, all rounds
+    replicates: int  # replicates of the last round
+    adjusted_p: float | None = None  # Holm-adjusted p-value across the run's checks
+    second_level: dict[str, Any] = field(default_factory=dict)
+    rounds: list[Round] = field(default_factory=list)
+    null: str = ""
+    title: str = ""
+    error: str | None = None  # a check that could not run says why here (and is graded "fail")
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+@dataclass
+class Report:
+    command: str
+    source: dict[str, Any]
+    budget_bytes: int
+    alpha: float
+    verdict: str
+    combined_p: float | None
+    checks: list[CheckReport]
+    incomplete: bool = False
+    elapsed_s: float = 0.0
+    plan: list[dict[str, Any]] = field(default_factory=list)
+    combined_method: str = "harmonic mean p-value (Wilson 2019)"
+    settings: dict[str, Any] = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+    tool_version: str = __version__
+    schema: str = SCHEMA
+    cautions: list[str] = field(default_factory=lambda: list(CAUTIONS))
+
+    # -- outcomes ------------------------------------------------------------------------------
+    def exit_code(self, strict: bool = False) -> int:
+        if self.verdict == "fail" or (strict and self.verdict == "borderline"):
+            return 1
+        return 0
+
+    def worst_first(self) -> list[CheckReport]:
+        order = {"fail": 0, "borderline": 1, "pass": 2}
+        return sorted(self.checks, key=lambda c: (order.get(c.grade, 0), c.p_value, c.id))
+
+    # -- serialisation -------------------------------------------------------------------------
+    def to_dict(self) -> dict[str, Any]:
+        d = {
+            "schema": self.schema,
+            "tool_version": self.tool_version,
+            "command": self.command,
+            "source": self.source,
+            "budget_bytes": self.budget_bytes,
+            "alpha": self.alpha,
+            "verdict": self.verdict,
+            "combined_p": self.combined_p,
+            "combined_method": self.combined_method,
+            "incomplete": self.incomplete,
+            "elapsed_s": round(self.elapsed_s, 3),
+            "settings": self.settings,
+            "plan": self.plan,
+            "checks": [c.to_dict() for c in self.checks],
+            "notes": self.notes,
+            "cautions": self.cautions,
+        }
+        return d
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False, default=_json_default)
+
+    def to_text(self, color: bool = False) -> str:
+        from .terminal import render
+
+        return render(self, color=color)
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> "Report":
+        checks = []
+        for c in d["checks"]:
+            c = dict(c)
+            c["rounds"] = [Round(**r) for r in c.get("rounds", [])]
+            checks.append(CheckReport(**c))
+        fields = {k: v for k, v in d.items() if k != "checks" and k in cls.__dataclass_fields__}
+        return cls(checks=checks, **fields)
+
+
+def _json_default(o: Any) -> Any:
+    import numpy as np
+
+    if isinstance(o, np.integer):
+        return int(o)
+    if isinstance(o, np.floating):
+        return float(o)
+    if isinstance(o, np.ndarray):
+        return o.tolist()
+    raise TypeError(f"not JSON serialisable: {type(o).__name__}")

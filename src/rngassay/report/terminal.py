@@ -1,0 +1,52 @@
+"""Terminal rendering: a compact table, worst checks first, then the verdict, bytes read and SHA-256."""
+
+from __future__ import annotations
+
+from .model import Report
+
+_COLORS = {"fail": "\033[31;1m", "borderline": "\033[33;1m", "pass": "\033[32m"}
+_RESET = "\033[0m"
+
+
+def fmt_p(p: float | None) -> str:
+    """Scientific notation, 3 significant digits; never printed as 0 (shared with the HTML report)."""
+    from .html import format_p
+
+    return "-" if p is None else format_p(p)
+
+
+def _grade(g: str, color: bool) -> str:
+    text = f"{g:<10}"
+    return f"{_COLORS.get(g, '')}{text}{_RESET}" if color else text
+
+
+def render(report: Report, color: bool = False, limit: int | None = None) -> str:
+    src = report.source
+    lines = []
+    rows = report.worst_first()
+    shown = rows if limit is None else rows[:limit]
+    idw = max([len("check")] + [len(c.id) for c in shown])
+    lines.append(f"  {'grade':<10} {'p-value':>9} {'holm p':>9} {'rounds':>6}  {'check':<{idw}}  family")
+    for c in shown:
+        adj = fmt_p(c.adjusted_p)
+        err = f"  ({c.error})" if c.error else ""
+        lines.append(
+            f"  {_grade(c.grade, color)} {fmt_p(c.p_value):>9} {adj:>9} {len(c.rounds):>6}  {c.id:<{idw}}  {c.family}{err}"
+        )
+    if limit is not None and len(rows) > limit:
+        lines.append(f"  ... {len(rows) - limit} more checks, all graded as listed in the JSON/HTML report")
+    counts = {g: sum(1 for c in report.checks if c.grade == g) for g in ("fail", "borderline", "pass")}
+    lines.append("")
+    verdict = report.verdict + (" (incomplete run)" if report.incomplete else "")
+    lines.append(f"verdict      {_grade(verdict, color).rstrip()}   "
+                 f"{counts['fail']} fail, {counts['borderline']} borderline, {counts['pass']} pass "
+                 f"of {len(report.checks)} checks; family-wise alpha {report.alpha:g} (Holm)")
+    lines.append(f"combined p   {fmt_p(report.combined_p)} ({report.combined_method})")
+    lines.append(f"source       {src.get('kind')}: {src.get('name')} (format {src.get('format')})")
+    lines.append(f"bytes read   {src.get('bytes_read')}")
+    lines.append(f"sha-256      {src.get('sha256')}")
+    for n in report.notes:
+        if not n.startswith("left out"):
+            lines.append(f"note         {n}")
+    lines.append("caution      a pass is evidence at this sample size, not proof of unpredictability; see the README")
+    return "\n".join(lines)

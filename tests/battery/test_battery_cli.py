@@ -1,0 +1,77 @@
+"""`rngassay test`, `diff` and `demo` from the command line: reports, exit codes, bad input."""
+
+import json
+import xml.etree.ElementTree as ET
+
+import numpy as np
+import pytest
+
+
+@pytest.fixture(scope="module")
+def sound_file(tmp_path_factory):
+    p = tmp_path_factory.mktemp("d") / "sound.bin"
+    p.write_bytes(np.random.Generator(np.random.PCG64(99)).bytes(2 << 20))
+    return p
+
+
+@pytest.fixture(scope="module")
+def flawed_file(tmp_path_factory):
+    p = tmp_path_factory.mktemp("d") / "flawed.bin"
+    b = np.frombuffer(np.random.Generator(np.random.PCG64(98)).bytes(2 << 20), np.uint8) & 0xFE
+    p.write_bytes(b.astype(np.uint8).tobytes())
+    return p
+
+
+def test_reports_written_and_exit_codes(run_cli, tmp_path, sound_file, flawed_file):
+    j, h, x = tmp_path / "r.json", tmp_path / "r.html", tmp_path / "r.xml"
+    r = run_cli("test", sound_file, "--workers", "1", "--json", j, "--html", h, "--junit", x, "-q")
+    assert r.code == 0, r.err
+    d = json.loads(j.read_text())
+    assert d["verdict"] in ("pass", "borderline") and d["source"]["bytes_read"] == 2 << 20
+    assert h.read_text().lstrip().lower().startswith("<!doctype html")
+    suite = ET.parse(x).getroot()
+    assert len(suite.findall(".//testcase")) == len(d["checks"])
+    bad = tmp_path / "bad.json"
+    r = run_cli("test", flawed_file, "--workers", "1", "--json", bad, "-q")
+    assert r.code == 1
+    assert "fail" in r.out
+    # diff: the flawed run is worse than the sound one, not the other way round
+    assert run_cli("diff", j, bad).code == 1
+    assert run_cli("diff", bad, j).code == 0
+
+
+def test_plan_only_reads_nothing(run_cli, sound_file):
+    r = run_cli("test", sound_file, "--plan-only")
+    assert r.code == 0 and "plan:" in r.out and "replicates" in r.out
+
+
+def test_report_into_missing_folder_is_refused_before_work(run_cli, tmp_path, sound_file):
+    r = run_cli("test", sound_file, "--json", tmp_path / "nope" / "r.json")
+    assert r.code == 2 and "folder does not exist" in r.err and len(r.err.strip().splitlines()) == 1
+
+
+@pytest.mark.parametrize("content", [b"not json at all", b'{"schema": "something-else/1", "checks": []}', b"\xff\xfe"])
+def test_diff_rejects_bad_json(run_cli, tmp_path, content, sound_file):
+    good = tmp_path / "good.json"
+    assert run_cli("test", sound_file, "--workers", "1", "--checks", "byte frequency", "--json", good, "-q").code == 0
+    bad = tmp_path / "bad.json"
+    bad.write_bytes(content)
+    r = run_cli("diff", good, bad)
+    assert r.code == 2 and "bad.json" in r.err and len(r.err.strip().splitlines()) == 1
+    r = run_cli("diff", good, tmp_path / "missing.json")
+    assert r.code == 2 and len(r.err.strip().splitlines()) == 1
+
+
+def test_bad_alpha_and_workers(run_cli, sound_file):
+    for args in (["--alpha", "0"], ["--alpha", "1.5"], ["--workers", "0"]):
+        r = run_cli("test", sound_file, *args)
+        assert r.code == 2 and len(r.err.strip().splitlines()) == 1
+
+
+def test_demo_writes_reports(run_cli, tmp_path):
+    r = run_cli("demo", "--budget", "512KiB", "--out", tmp_path / "rep", "--workers", "1", "-q")
+    assert r.code == 0, r.err
+    names = sorted(p.name for p in (tmp_path / "rep").iterdir())
+    assert names == sorted(f"demo-{s}.{e}" for s in ("supplier", "homegrown") for e in ("json", "html", "xml"))
+    home = json.loads((tmp_path / "rep" / "demo-homegrown.json").read_text())
+    assert home["verdict"] == "fail"  # lcg32's low bits are caught (p < 1e-10 at this size)
