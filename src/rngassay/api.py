@@ -20,6 +20,7 @@ from .battery.battery import run_battery
 from .battery.grade import DEFAULT_ALPHA
 from .battery.plan import Plan, make_plan
 from .report.model import Report
+from .fitting import fit  # noqa: F401  (re-exported: rngassay.api.fit)
 
 DEFAULT_BUDGET = 64 << 20
 BUFFER_LIMIT = 256 << 20  # finite sources up to this size are read and validated before planning

@@ -342,3 +342,8 @@ def diff(base: str, new: str, show_all: bool) -> None:
     result = diff_reports(b, n)
     click.echo(render_diff_text(result, show_same=show_all))
     raise click.exceptions.Exit(EXIT_FAIL if result.worse else EXIT_OK)
+
+
+from .fitting import register_cli as _register_fit  # noqa: E402  (adds `rngassay fit`)
+
+_register_fit(cli)

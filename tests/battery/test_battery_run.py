@@ -12,13 +12,14 @@ def _strip(d):
     d = dict(d)
     d.pop("elapsed_s")
     d["settings"] = {k: v for k, v in d["settings"].items() if k != "workers_used"}
+    d["checks"] = [{k: v for k, v in c.items() if k != "seconds"} for c in d["checks"]]
     return d
 
 
 def test_plan_scales_with_budget_and_is_deterministic():
     small = api.assay(gen="pcg64", budget="4MiB", plan_only=True)
     large = api.assay(gen="pcg64", budget="64MiB", plan_only=True)
-    assert small.segments == 4 and large.segments == 32
+    assert small.segments == 4 and large.segments == 32  # R = clamp(budget / 2 MiB, 4, 64)
     assert small.to_list() == api.assay(gen="pcg64", budget="4MiB", plan_only=True).to_list()
     assert len(large.checks) >= len(small.checks)
 

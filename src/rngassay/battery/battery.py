@@ -77,6 +77,7 @@ def run_battery(
                     c.replicates = r2.replicates
                     c.second_level = r2.second_level
                     c.statistic = r2.statistic
+                    c.seconds = round(c.seconds + o2.seconds, 4)
                 if not complete2:
                     complete, reason = False, reason2
     if not complete:
@@ -119,7 +120,7 @@ def _check_report(o: Outcome, r: G.RoundResult, g: str, a: float, registry) -> C
         id=o.check.id, key=o.check.key, family=o.check.family, params=o.check.params, view=o.check.view,
         kind=spec.kind, statistic=r.statistic, p_value=r.p_value, grade=g, bytes=o.bytes,
         replicates=r.replicates, adjusted_p=a, second_level=sl, rounds=[_round(r, o)], null=r.null,
-        title=spec.title,
+        title=spec.title, seconds=round(o.seconds, 4),
     )
 
 

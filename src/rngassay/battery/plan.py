@@ -2,7 +2,7 @@
 
 How the budget is spent
 -----------------------
-The budget (default 64 MiB) is cut into ``R`` disjoint segments, ``R = clamp(budget / 1 MiB, 4, 32)``
+The budget (default 64 MiB) is cut into ``R`` disjoint segments, ``R = clamp(budget / 2 MiB, 4, 64)``
 (the replicates). Every check runs once per segment; its parameters come from its registry entry's
 ``default_params(n)``, where ``n`` is the number of values of the check's view that one segment holds,
 and it reads only the first ``values_needed(params)`` values of that view (a check need not see every
@@ -28,9 +28,14 @@ from ..errors import InputError
 from ..intake import views
 from ..intake.formats import Format
 
-MIN_SEGMENTS, MAX_SEGMENTS = 4, 32
-SEGMENT_UNIT = 1 << 20
+MIN_SEGMENTS, MAX_SEGMENTS = 4, 64
+SEGMENT_UNIT = 2 << 20
 SIZE_KEYS = ("n", "n_bits", "n_values", "n_words")  # parameters that only say how much data is used
+# Above this many bytes per check (all replicates together), a check sees only the first
+# CHECK_CAP_BYTES / R bytes of each segment -- unless its registry entry says it is cheap
+# (extra={"cheap": True}: one fast counting pass). This keeps a large budget's cost near a
+# fixed multiple of one read pass while the cheap checks still use every byte.
+CHECK_CAP_BYTES = 64 << 20
 
 
 @dataclass
@@ -137,7 +142,10 @@ def make_plan(
         if fmt.kind == "text-integers" and spec.family != "categorical":
             continue
         per_value = views.input_bytes_per_value(fmt, spec.view) if fmt.is_binary else 1.0
-        n_avail = int(seg / per_value)
+        seg_for_check = seg
+        if fmt.is_binary and not spec.extra.get("cheap") and seg * R > CHECK_CAP_BYTES:
+            seg_for_check = max(1, CHECK_CAP_BYTES // R)
+        n_avail = int(seg_for_check / per_value)
         if spec.view == "integers" and fmt.kind in ("bytes", "words"):
             n_avail = int(n_avail * 0.99)  # rejection sampling may drop a few words
         try:
@@ -149,6 +157,9 @@ def make_plan(
             plan.skipped.append(f"{key}: needs more data per replicate than {n_avail} {spec.view} values")
             continue
         for params in param_sets:
+            rp = spec.extra.get("resolution_param")
+            if rp and spec.view == "uniforms":  # tell resolution-aware checks the grid the input claims
+                params = {**params, rp: views.uniform_resolution_bits(fmt)}
             cid = display_id(key, params)
             if checks and not _matches(spec, cid, checks):
                 continue

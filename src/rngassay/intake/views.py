@@ -71,6 +71,17 @@ def input_bytes_per_value(fmt: Format, view: str) -> float:
     raise ValueError(f"unknown view {view!r}")
 
 
+def uniform_resolution_bits(fmt: Format) -> int:
+    """Resolution in bits of the uniforms view (the grid 2**-bits the values claim to live on)."""
+    if fmt.kind == "bytes" or (fmt.kind == "words" and fmt.itemsize == 8):
+        return 53
+    if fmt.kind == "words":
+        return 8 * fmt.itemsize
+    if fmt.name == "<f4":
+        return 24
+    return 53
+
+
 def as_bytes(vals: np.ndarray, fmt: Format) -> np.ndarray:
     if fmt.kind not in ("bytes", "words"):
         raise ValueError(f"no byte view for {fmt.describe()}")

@@ -54,6 +54,7 @@ class CheckReport:
     null: str = ""
     title: str = ""
     error: str | None = None  # a check that could not run says why here (and is graded "fail")
+    seconds: float = 0.0  # time spent in the check (timing only: differs between runs)
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)

@@ -231,6 +231,7 @@ register(CheckSpec(
     kind="continuous", func=monobit_frequency, values_needed=_n,
     default_params=lambda n: [{"n_bits": n}] if n >= 100 else [],
     source=f"{SP800_22} §2.1",
+    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
 ))
 
 
@@ -247,6 +248,7 @@ register(CheckSpec(
     key="block frequency", family="bits", title="frequency test within a block", view="bits",
     kind="continuous", func=block_frequency, values_needed=_n,
     default_params=_block_frequency_defaults, source=f"{SP800_22} §2.2",
+    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
 ))
 
 register(CheckSpec(
@@ -272,4 +274,5 @@ register(CheckSpec(
     key="poker bit symbols", family="bits", title="poker test on m-bit symbols", view="bits",
     kind="continuous", func=poker_symbols, values_needed=_n, default_params=_poker_defaults,
     both_tails=True, source="FIPS 140-2 (2001) §4.9.1 (m = 4); Pearson chi-square on m-bit symbols",
+    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
 ))

@@ -191,6 +191,7 @@ register(CheckSpec(
     key="binary matrix rank", family="bits", title="binary matrix rank test", view="bits",
     kind="continuous", func=binary_matrix_rank, values_needed=lambda p: int(p["n_bits"]),
     default_params=_rank_defaults, source=f"{SP800_22} §2.5, §3.5",
+    extra={"max_replicates": 8},  # costly per byte: 8 replicates are plenty
 ))
 
 
@@ -208,4 +209,5 @@ register(CheckSpec(
     title="binary matrix rank test per bit lane of 32-bit words", view="words32", kind="continuous",
     func=binary_matrix_rank_lanes, values_needed=lambda p: int(p["n_words"]),
     default_params=_rank_lane_defaults, source=f"{SP800_22} §2.5 applied to bit lanes",
+    extra={"max_replicates": 8},  # costly per byte: 8 replicates are plenty
 ))
