@@ -22,39 +22,26 @@ import time
 import numpy as np
 
 INTEGER_K = 6  # categories for checks on the integers view
-_IEC = {"": 1, "B": 1, "KIB": 1 << 10, "MIB": 1 << 20, "GIB": 1 << 30}
-
-
 def parse_size(text: str) -> int:
-    m = re.fullmatch(r"\s*(\d+)\s*([KMG]iB|B)?\s*", text, re.IGNORECASE)
-    if not m:
-        raise argparse.ArgumentTypeError(f"bad size {text!r} (e.g. 64MiB)")
-    return int(m.group(1)) * _IEC[(m.group(2) or "").upper()]
+    from rngassay.errors import InputError
+    from rngassay.sizes import parse_size as _parse
+
+    try:
+        return _parse(text, "--size")
+    except InputError as e:
+        raise argparse.ArgumentTypeError(e.line()) from None
 
 
 def view_array(raw: np.ndarray, fmt, view: str, params: dict):
-    """(data argument for the check, the array a read pass is timed on)."""
-    from rngassay.intake import views
+    """(data argument for the check, the array a read pass is timed on), made as the battery makes them."""
+    from rngassay.battery.run import ViewCache
 
-    if view == "bytes":
-        a = views.as_bytes(raw, fmt)
-        return a, a
-    if view == "words32":
-        a = views.as_words32(raw, fmt)
-        return a, a
-    if view == "words64":
-        a = views.as_words64(raw, fmt)
-        return a, a
-    if view == "uniforms":
-        a = views.as_uniforms(raw, fmt)
-        return a, a
+    v = ViewCache(raw, fmt).get(view, int(params["k"]) if view == "integers" else None)
     if view == "bits":
-        packed, _ = views.as_bits(raw, fmt)
-        return packed, packed
+        return v[0], v[0]
     if view == "integers":
-        a, _ = views.as_integers(raw, fmt, int(params["k"]))
-        return a, a
-    raise ValueError(view)
+        return v[0], v[0]
+    return v, v
 
 
 def best_time(fn, repeat: int) -> float:

@@ -63,9 +63,14 @@ def test_sound_continuous_passes_with_reports(run_cli, files, tmp_path):
 def test_binary_and_stdin(run_cli, files):
     r = run_cli("fit", files["normal.f8"], "--format", "<f8", "--dist", "norm", "--workers", "1", "-q")
     assert r.code == 0, r.err
-    r = run_cli("fit", "-", "--dist", "norm", "--no-battery", "-q", stdin=b"0.1 -0.3\n1.2\n-0.7 0.05\n")
+    vals = np.random.Generator(np.random.PCG64(8)).normal(size=200)
+    text = "\n".join(f"{v:.17g}" for v in vals).encode()
+    r = run_cli("fit", "-", "--dist", "norm", "--no-battery", "-q", stdin=text)
     assert r.code == 0, r.err
     assert "verdict" in r.out and "anderson-darling" in r.out
+    # too few values to say anything: refused, not a vacuous pass
+    r = run_cli("fit", "-", "--dist", "norm", "--no-battery", "-q", stdin=b"0.1 -0.3\n1.2\n-0.7 0.05\n")
+    assert r.code == 2 and "too little data" in r.err
 
 
 def test_misfit_exits_1(run_cli, files):

@@ -244,10 +244,15 @@ def assay_stream(
     retest: bool = True,
     progress: Callable[[str], None] | None = None,
     command: str = "test",
+    strict_selectors: bool = True,
 ) -> Report:
-    """Run the battery on an already-open finite stream (all of it, or ``budget`` bytes)."""
+    """Run the battery on an already-open finite stream (all of it, or ``budget`` bytes).
+
+    ``strict_selectors=False`` lets selectors that name no battery check pass silently (for callers such
+    as ``fit`` whose selectors also name checks of their own)."""
     size = stream.source.size_hint()
     budget_bytes = budget if budget is not None else (size if size is not None else DEFAULT_BUDGET)
-    plan = make_plan(stream.fmt, budget_bytes, shared=not stream.unlimited, checks=checks, skip=skip)
+    plan = make_plan(stream.fmt, budget_bytes, shared=not stream.unlimited, checks=checks, skip=skip,
+                     strict_selectors=strict_selectors)
     return run_battery(stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
                        command=command, settings={"workers_used": workers, "retest": retest})

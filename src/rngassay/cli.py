@@ -108,6 +108,8 @@ def emit(name: str, seed: int | None, nbytes: str | None) -> None:
 
     total = parse_size(nbytes, "--bytes") if nbytes is not None else None
     gen = make_generator(name, seed)
+    if sys.stdout is None:
+        raise InputError("standard output is closed", "", "redirect it to a file or a pipe")
     out = sys.stdout.buffer
     chunk = 1 << 20
     written = 0
@@ -119,6 +121,8 @@ def emit(name: str, seed: int | None, nbytes: str | None) -> None:
         out.flush()
     except BrokenPipeError:
         _quiet_broken_pipe()
+    except OSError as e:
+        raise InputError(f"cannot write to standard output: {e.strerror or e}", "", "check the disk or the receiving program") from None
 
 
 def _quiet_broken_pipe() -> None:
@@ -147,6 +151,8 @@ def _report_options(f):
 
 def _split(values: tuple[str, ...]) -> list[str] | None:
     out = [p.strip() for v in values for p in v.split(",") if p.strip()]
+    if values and not out:
+        raise InputError("empty --checks/--skip selection", "", "name checks, e.g. --checks gap,serial or --checks bits")
     return out or None
 
 
@@ -171,7 +177,9 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
     _check_source_given(source, command, python_spec, gen)
     if workers is not None and workers < 1:
         raise InputError(f"--workers must be at least 1, got {workers}", "", "e.g. --workers 2")
-    outputs = _check_outputs(json_path, html_path, junit_path)
+    outputs = _check_outputs(json_path, html_path, junit_path, (source,))
+    if shell and command is None:
+        raise InputError("--shell applies to --command only", "", "drop --shell or give --command")
     progress = Progress(quiet)
     try:
         result = api.assay(
@@ -202,20 +210,13 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
     raise click.exceptions.Exit(code)
 
 
-def _check_outputs(json_path, html_path, junit_path) -> list[tuple[str, str]]:
-    """Validate report paths before any work, so a long run does not end in an unwritable path."""
+def _check_outputs(json_path, html_path, junit_path, inputs: tuple = ()) -> list[tuple[str, str]]:
+    """Validate report paths before any work, so a long run does not end in an unwritable path and no
+    report ever replaces an input file, a device or a pipe."""
+    from .report.files import check_report_paths
+
     outs = [(w, p) for w, p in (("json report", json_path), ("html report", html_path), ("junit report", junit_path)) if p]
-    seen = set()
-    for what, path in outs:
-        full = os.path.abspath(path)
-        if full in seen:
-            raise InputError(f"two reports would be written to the same file", path, "give each report its own path")
-        seen.add(full)
-        if os.path.isdir(path):
-            raise InputError(f"{what} path is a directory", path, "give a file name")
-        parent = os.path.dirname(full)
-        if not os.path.isdir(parent):
-            raise InputError(f"cannot write {what}: folder does not exist", path, "create the folder or choose another path")
+    check_report_paths(outs, [p for p in inputs if isinstance(p, str)])
     return outs
 
 

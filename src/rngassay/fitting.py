@@ -876,7 +876,7 @@ def _discrete_validator(decl: Declaration) -> Validator:
         frac = v != np.floor(v)
         if frac.any():
             i = int(np.argmax(frac))
-            return i, f"{v[i]!r} is not a whole number ({decl.spec} is a discrete distribution)", \
+            return i, f"{float(v[i])!r} is not a whole number ({decl.spec} is a discrete distribution)", \
                 "the data must be integer outcomes"
         uniq = np.unique(v)
         with np.errstate(all="ignore"):
@@ -925,6 +925,9 @@ def _array_variates(decl: Declaration, values: Any) -> Variates:
     return Variates(vals, info)
 
 
+MIN_FIT_VALUES = 50
+
+
 def fit_values(
     var: Variates,
     decl: Declaration,
@@ -944,6 +947,12 @@ def fit_values(
     t0 = time.perf_counter() if t0 is None else t0
     x = var.values
     n = int(x.size)
+    if n < MIN_FIT_VALUES:
+        raise InputError(
+            f"too little data: {n} values; a fit needs at least {MIN_FIT_VALUES} to say anything",
+            str(var.source.get("name", "")),
+            "supply more values",
+        )
     notes: list[str] = []
     if var.truncated:
         notes.append(f"only the first {n} values were used (the source had more)")
@@ -1074,7 +1083,8 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
         notes.append(f"PIT battery: float resolution left out: {fmt} variates are rounded, so their PIT values "
                      "repeat by construction")
     try:  # planning is cheap: find out first whether any battery check is selected and can run
-        make_plan(parse_format("<f8"), 8 * int(u.size), shared=True, checks=bsel, skip=bskip or None)
+        make_plan(parse_format("<f8"), 8 * int(u.size), shared=True, checks=bsel, skip=bskip or None,
+                  strict_selectors=False)
     except InputError as e:
         if bsel is not None:
             notes.append("no check of the PIT battery matched the selection")
@@ -1085,7 +1095,7 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
                                kind="derived")
     with stream:
         return assay_stream(stream, checks=bsel, skip=bskip or None, alpha=alpha, workers=workers,
-                            retest=False, progress=progress, command="fit")
+                            retest=False, progress=progress, command="fit", strict_selectors=False)
 
 
 # =========================================================================== command line
@@ -1128,7 +1138,7 @@ def register_cli(cli_group) -> None:
         _check_source_given(source, command, None, None)
         if workers is not None and workers < 1:
             raise InputError(f"--workers must be at least 1, got {workers}", "", "e.g. --workers 2")
-        outputs = _check_outputs(json_path, html_path, junit_path)
+        outputs = _check_outputs(json_path, html_path, junit_path, (source, odds_path))
         progress = Progress(quiet)
         try:
             report = fit(source, dist=dist_spec, odds=odds_path, fmt=fmt, command=command, shell=shell, limit=limit,

@@ -75,3 +75,9 @@ def test_demo_writes_reports(run_cli, tmp_path):
     assert names == sorted(f"demo-{s}.{e}" for s in ("supplier", "homegrown") for e in ("json", "html", "xml"))
     home = json.loads((tmp_path / "rep" / "demo-homegrown.json").read_text())
     assert home["verdict"] == "fail"  # lcg32's low bits are caught (p < 1e-10 at this size)
+
+
+@pytest.mark.parametrize("args", [["--checks", "monobit frequency,nosuch"], ["--skip", "nosuch"], ["--checks", ","]])
+def test_unknown_selectors_are_refused(run_cli, sound_file, args):
+    r = run_cli("test", sound_file, "--plan-only", *args)
+    assert r.code == 2 and len(r.err.strip().splitlines()) == 1

@@ -78,6 +78,15 @@ def test_poisson_pooling_sums_counts(fake_registry):
     assert "uniformity" not in r.second_level  # never a uniformity test on discrete p-values
 
 
+def test_an_atom_at_one_does_not_fail_a_check(fake_registry):
+    # lattice statistics give p = 1 exactly with real probability (e.g. monobit with S_n = 0); one such
+    # replicate among ordinary ones must not look like evidence (it did under Anderson-Darling)
+    fake_registry("cont", None)
+    ps = [1.0, 0.3, 0.5, 0.7]
+    r = G.second_level(_outcome("cont", [CheckResult("cont", 0.0, p, "u") for p in ps]))
+    assert r.p_value > 0.1
+
+
 def test_continuous_second_level_parts(fake_registry):
     fake_registry("cont", None)
     ps = [0.2, 0.4, 0.6, 0.8, 0.005, 0.3, 0.7, 0.9]
@@ -86,12 +95,11 @@ def test_continuous_second_level_parts(fake_registry):
     sl = r.second_level
     assert sl["proportion_below"]["count"] == 1
     assert sl["proportion_below"]["p_value"] == pytest.approx(sps.binom.sf(0, 8, 0.01), rel=1e-10)
-    # Anderson-Darling A^2 for a fully specified uniform null (Anderson & Darling 1954 formula)
-    u = np.sort(ps)
-    n = len(u)
-    i = np.arange(1, n + 1)
-    a2 = -n - np.mean((2 * i - 1) * (np.log(u) + np.log1p(-u[::-1])))
-    assert sl["uniformity"]["statistic"] == pytest.approx(a2, rel=1e-9)
+    # Kolmogorov-Smirnov of the replicate p-values against U(0, 1) (scipy.stats as the reference)
+    ref = sps.kstest(ps, "uniform")
+    assert sl["uniformity"]["method"] == "kolmogorov-smirnov"
+    assert sl["uniformity"]["statistic"] == pytest.approx(ref.statistic, rel=1e-12)
+    assert sl["uniformity"]["p_value"] == pytest.approx(ref.pvalue, rel=1e-6)
     assert r.p_value == pytest.approx(min(1.0, 3 * min(sl["uniformity"]["p_value"], sl["proportion_below"]["p_value"],
                                                        sl["min_replicate"]["p_value"])))
 

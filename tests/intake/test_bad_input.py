@@ -137,17 +137,17 @@ def test_command_not_found(run_cli):
 
 def test_command_exits_nonzero(run_cli):
     cmd = f"{sys.executable} -c \"import sys; sys.stdout.buffer.write(b'x'*10); sys.stderr.write('boom: seed missing'); sys.exit(3)\""
-    one_line_error(run_cli("test", "--command", cmd, "--budget", "1KiB"), "status 3", "boom: seed missing")
+    one_line_error(run_cli("test", "--command", cmd, "--budget", "64KiB"), "status 3", "boom: seed missing")
 
 
 def test_command_produces_nothing(run_cli):
     cmd = f"{sys.executable} -c pass"
-    one_line_error(run_cli("test", "--command", cmd, "--budget", "1KiB"), "no output")
+    one_line_error(run_cli("test", "--command", cmd, "--budget", "64KiB"), "no output")
 
 
 def test_command_ends_early(run_cli):
     cmd = f"{sys.executable} -c \"import sys; sys.stdout.buffer.write(bytes(100))\""
-    one_line_error(run_cli("test", "--command", cmd, "--budget", "1KiB"), "ended after 100 bytes", "smaller --budget")
+    one_line_error(run_cli("test", "--command", cmd, "--budget", "64KiB"), "ended after 100 bytes", "smaller --budget")
 
 
 def test_python_spec_does_not_import(run_cli, tmp_path):
@@ -175,7 +175,7 @@ def test_python_wrong_return_type(run_cli, tmp_path):
 def test_python_draw_returns_wrong_type(run_cli, tmp_path):
     p = tmp_path / "gen.py"
     p.write_text("def make():\n    return lambda n: 'not bytes'\n")
-    one_line_error(run_cli("test", "--python", f"{p}:make", "--budget", "1KiB"), "draw() returned str")
+    one_line_error(run_cli("test", "--python", f"{p}:make", "--budget", "64KiB"), "draw() returned str")
 
 
 def test_unknown_format(run_cli, tmp_path):
@@ -220,3 +220,67 @@ def test_nothing_is_overwritten_on_error(run_cli, tmp_path):
     p.write_bytes(data)
     run_cli("test", p, "--format", "<u4")
     assert p.read_bytes() == data
+
+
+def test_too_little_data_is_refused(run_cli, tmp_path):
+    # below 64 KiB the checks cannot say anything useful: refuse rather than pass vacuously
+    p = tmp_path / "tiny.bin"
+    p.write_bytes(os.urandom(4096))
+    one_line_error(run_cli("test", p), "too little data", "64 KiB")
+    t = tmp_path / "few.txt"
+    t.write_text("0.1 0.2 0.3 0.4\n")
+    one_line_error(run_cli("test", t, "--format", "text"), "too little data")
+
+
+def test_report_never_overwrites_the_input(run_cli, tmp_path):
+    p = tmp_path / "data.bin"
+    data = os.urandom(1 << 16)
+    p.write_bytes(data)
+    one_line_error(run_cli("test", p, "--json", p), "overwrite an input file")
+    assert p.read_bytes() == data
+
+
+def test_report_refuses_devices(run_cli, tmp_path):
+    p = tmp_path / "data.bin"
+    p.write_bytes(os.urandom(1 << 16))
+    one_line_error(run_cli("test", p, "--json", "/dev/null"), "device, pipe or socket")
+    assert os.path.exists("/dev/null") and not os.path.isfile("/dev/null")
+
+
+def test_report_through_a_symlink_writes_the_target(run_cli, tmp_path):
+    p = tmp_path / "data.bin"
+    p.write_bytes(np.random.Generator(np.random.PCG64(4)).bytes(1 << 16))
+    target = tmp_path / "real.json"
+    target.write_text("{}")
+    link = tmp_path / "link.json"
+    link.symlink_to(target)
+    r = run_cli("test", p, "--json", link, "--workers", "1", "-q")
+    assert r.code in (0, 1)
+    assert link.is_symlink() and '"schema"' in target.read_text()
+
+
+def test_shell_without_command(run_cli, tmp_path):
+    one_line_error(run_cli("test", "--gen", "pcg64", "--shell"), "--shell applies to --command only")
+
+
+def test_python_generator_dying_mid_run(run_cli, tmp_path):
+    p = tmp_path / "dying.py"
+    p.write_text(
+        "import numpy as np\n"
+        "def make():\n"
+        "    bg = np.random.PCG64(1)\n"
+        "    state = {'n': 0}\n"
+        "    def draw(n):\n"
+        "        state['n'] += n\n"
+        "        if state['n'] > 30 << 20:\n"
+        "            raise OSError('device gone')\n"
+        "        return bg.random_raw(-(-n // 8)).astype('<u8')\n"
+        "    return draw\n"
+    )
+    j = tmp_path / "partial.json"
+    r = run_cli("test", "--python", f"{p}:make", "--budget", "1MiB", "--workers", "1", "--json", j)
+    one_line_error(r, "device gone")
+    import json
+
+    d = json.loads(j.read_text())
+    assert d["incomplete"] is True and d["checks"]  # what finished was filed, marked incomplete

@@ -58,16 +58,16 @@ def test_stdin_pipe_slow_writer(tmp_path):
         """
         import sys, time
         out = sys.stdout.buffer
-        for i in range(40):
+        for i in range(100):
             out.write(bytes([i % 256]) * 777); out.flush(); time.sleep(0.005)
         """
     )
-    reader = "from rngassay.api import assay; r = assay('-', budget=777*40); print(r.source['bytes_read'], r.source['sha256'])"
+    reader = "from rngassay.api import assay; r = assay('-', budget=777*100); print(r.source['bytes_read'], r.source['sha256'])"
     p1 = subprocess.Popen([sys.executable, "-c", writer], stdout=subprocess.PIPE)
     out = subprocess.run([sys.executable, "-c", reader], stdin=p1.stdout, capture_output=True, timeout=60)
     p1.wait()
     assert out.returncode == 0, out.stderr
-    expected = b"".join(bytes([i % 256]) * 777 for i in range(40))
+    expected = b"".join(bytes([i % 256]) * 777 for i in range(100))
     n, digest = out.stdout.split()
     assert int(n) == len(expected) and digest.decode() == hashlib.sha256(expected).hexdigest()
 

@@ -64,7 +64,7 @@ def test_change_labels(pair):
         "e borderline to pass": ("weaker evidence", False),
         "f much larger p": ("weaker evidence", False),
         "g small wiggle": ("same", False),
-        "h removed": ("removed", False),
+        "h removed": ("removed", True),  # a removed check counts as worse (module docstring)
         "i added": ("added", False),
     }
     assert {k: (r.change, r.worse) for k, r in rows.items()} == expected
@@ -123,7 +123,7 @@ def test_rows_worse_first(pair):
 
 def test_text_rendering(pair):
     text = render_diff_text(diff_reports(*pair))
-    assert "NEW IS WORSE: 3 checks" in text
+    assert "new is worse: 4 checks" in text
     assert "! new fail" in text and "a newly failing" in text
     assert "pass 3.00e-01" in text and "fail 1.00e-12" in text
     assert "g small wiggle" not in text and "1 unchanged check not shown" in text
@@ -146,3 +146,29 @@ def test_worse_uses_holm_adjusted_p_when_both_reports_have_it():
 
     assert not diff_reports(rep(0.9, 1.0), rep(1e-5, 0.5)).worse
     assert diff_reports(rep(0.9, 1.0), rep(1e-7, 9e-4)).worse  # adjusted 1.0 -> 9e-4: 3 orders, below 0.01
+
+
+def test_incomplete_new_report_is_worse():
+    from rngassay.report.diff import diff_reports
+
+    rep = {"schema": "rngassay-report/1", "verdict": "pass", "source": {},
+           "checks": [{"id": "gap t=8", "grade": "pass", "p_value": 0.5, "adjusted_p": 1.0}]}
+    assert not diff_reports(rep, rep).worse
+    assert diff_reports(rep, dict(rep, incomplete=True)).worse
+
+
+@pytest.mark.parametrize("bad_check", [
+    "not an object", {"grade": "pass", "p_value": 0.5}, {"id": ["x"], "grade": "pass", "p_value": 0.5},
+    {"id": "x", "grade": "great", "p_value": 0.5}, {"id": "x", "grade": "pass", "p_value": "abc"},
+    {"id": "x", "grade": "pass", "p_value": -0.1},
+])
+def test_damaged_check_entries_are_refused(tmp_path, bad_check):
+    import json
+
+    from rngassay.errors import InputError
+    from rngassay.report.files import read_report_json
+
+    p = tmp_path / "r.json"
+    p.write_text(json.dumps({"schema": "rngassay-report/1", "checks": [bad_check]}))
+    with pytest.raises(InputError, match="damaged report"):
+        read_report_json(p)

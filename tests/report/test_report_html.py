@@ -103,7 +103,8 @@ def _png_size(png: bytes) -> tuple[int, int]:
         (0.5, "5.00e-01"),
         (1.0, "1.00e+00"),
         (1e-300, "1.00e-300"),
-        (5e-324, "4.94e-324"),  # smallest subnormal double, still shown as a number (IEEE 754)
+        (5e-324, "< 1e-300"),  # below the floor: the exact figure carries no meaning (IEEE 754 subnormal)
+        (2e-300, "2.00e-300"),
         (0.0, "< 1e-300"),  # an underflow is never printed as 0
         (float("nan"), "n/a"),
         (None, "\u2014"),

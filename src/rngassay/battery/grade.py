@@ -4,8 +4,10 @@ Second level (one p-value per check and round)
 ---------------------------------------------
 Each check ran on ``R`` disjoint segments. Its round p-value is the Bonferroni minimum of:
 
-- continuous statistics: (a) Anderson–Darling test of the ``R`` first-level p-values against uniform
-  (catches p-values piling up near 0 *or* near 1, i.e. too-good fits), (b) the binomial right tail of
+- continuous statistics: (a) Kolmogorov–Smirnov test of the ``R`` first-level p-values against uniform
+  (catches p-values piling up near 0 *or* near 1, i.e. too-good fits; KS rather than Anderson–Darling
+  because some statistics are lattice-valued and give p = 1 exactly with small but real probability,
+  and a single such atom drives Anderson–Darling's log weights to a false rejection), (b) the binomial right tail of
   the number of replicates with p < 0.01, (c) the smallest replicate p-value, Šidák-corrected
   (``1 − (1 − p_min)^R``) — a single blatant failure is not averaged away;
 - discrete statistics: never a uniformity test on discrete p-values. When the check reports additive
@@ -20,7 +22,8 @@ First-level p-values are two-sided (``2 · min(right, left)``) where the registr
 Run level
 ---------
 Holm's step-down procedure over the checks' p-values at ``alpha`` (default 0.001): a sound generator
-fails a run with probability at most ``alpha``. A check Holm rejects is ``fail``. A check whose
+fails a run in the first round with probability at most ``alpha`` (the retest below adds at most
+``BORDERLINE_FACTOR · alpha²``, since it runs on fresh data: alpha · (1 + 10 alpha) in all). A check Holm rejects is ``fail``. A check whose
 Holm-adjusted p-value is below ``BORDERLINE_FACTOR · alpha`` (10 · alpha) but not below ``alpha`` is
 ``borderline``; it is retested once on fresh, disjoint data when the source has more. The retest is
 judged alone with a Bonferroni factor equal to the number of checks: ``fail`` below alpha,
@@ -103,9 +106,9 @@ def second_level(outcome: Outcome) -> RoundResult | None:
     continuous = spec.kind == "continuous" and all(r.kind == "continuous" for rs in reps for r in rs)
     if continuous and not multi:
         if R >= 2:
-            a2, p_ad = stats.uniformity_of_pvalues(np.asarray(per_rep))
-            parts["uniformity"] = {"method": "anderson-darling", "statistic": float(a2), "p_value": float(p_ad)}
-            candidates.append(p_ad)
+            d, p_ks = stats.ks_uniform(np.asarray(per_rep))
+            parts["uniformity"] = {"method": "kolmogorov-smirnov", "statistic": float(d), "p_value": float(p_ks)}
+            candidates.append(p_ks)
         k, right, _left = stats.proportion_below(np.asarray(per_rep), PROPORTION_THRESHOLD)
         parts["proportion_below"] = {"threshold": PROPORTION_THRESHOLD, "count": int(k), "of": R, "p_value": float(right)}
         candidates.append(right)
@@ -176,6 +179,8 @@ def retest_grade(p: float, m: int, alpha: float) -> tuple[str, float]:
 def combined_p(ps: list[float]) -> float | None:
     if not ps:
         return None
+    if len(ps) == 1:
+        return float(ps[0])
     return float(stats.harmonic_mean_p(np.asarray(ps, dtype=float)))
 
 

@@ -36,6 +36,8 @@ SIZE_KEYS = ("n", "n_bits", "n_values", "n_words")  # parameters that only say h
 # (extra={"cheap": True}: one fast counting pass). This keeps a large budget's cost near a
 # fixed multiple of one read pass while the cheap checks still use every byte.
 CHECK_CAP_BYTES = 64 << 20
+MIN_BUDGET_BYTES = 64 << 10  # below this the checks have too little data to say anything useful
+MIN_TEXT_VALUES = 100
 
 
 @dataclass
@@ -116,9 +118,22 @@ def make_plan(
     skip: list[str] | None = None,
     families: tuple[str, ...] | None = None,
     segments: int | None = None,
+    strict_selectors: bool = True,
 ) -> Plan:
     """Choose checks and parameters for a budget. ``checks``/``skip`` select by key, family or id."""
     registry = load_all()
+    if fmt.is_binary and budget_bytes < MIN_BUDGET_BYTES:
+        raise InputError(
+            f"too little data: {budget_bytes} bytes; the battery needs at least {MIN_BUDGET_BYTES} bytes (64 KiB)",
+            "",
+            "give --budget 64KiB or more, and a stream at least that long",
+        )
+    if not fmt.is_binary and budget_bytes < MIN_TEXT_VALUES:
+        raise InputError(
+            f"too little data: {budget_bytes} values; the battery needs at least {MIN_TEXT_VALUES}",
+            "",
+            "supply more values",
+        )
     R = segments or segments_for(budget_bytes)
     if fmt.is_binary:
         seg = budget_bytes // R
@@ -140,6 +155,10 @@ def make_plan(
         if spec.family == "categorical" and fmt.kind != "text-integers":
             continue
         if fmt.kind == "text-integers" and spec.family != "categorical":
+            continue
+        if fmt.kind == "text-floats" and spec.extra.get("resolution_param"):
+            # printed decimals have a grid of their own (e.g. 1e-6) that the format does not declare
+            plan.skipped.append(f"{key}: text floats are rounded to their printed digits, so their grid is unknown")
             continue
         per_value = views.input_bytes_per_value(fmt, spec.view) if fmt.is_binary else 1.0
         seg_for_check = seg
@@ -175,6 +194,8 @@ def make_plan(
             reps = max(1, min(R, int(spec.extra.get("max_replicates", R))))  # costly checks: fewer replicates
             plan.checks.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, reps))
             selected_any = True
+    if strict_selectors:
+        _check_selectors(registry, checks, skip, plan)
     if not selected_any:
         what = "the selection" if checks or skip else f"format {fmt.describe()}"
         raise InputError(
@@ -183,6 +204,23 @@ def make_plan(
             "give a larger --budget or change --checks/--skip (see `rngassay catalog`)",
         )
     return plan
+
+
+def _check_selectors(registry, checks, skip, plan: Plan) -> None:
+    """Every selector must name something: a typo in a CI gate must not silently drop checks."""
+    ids = [c.id for c in plan.checks] + [s.split(":")[0] for s in plan.skipped]
+    for option, sel in (("--checks", checks or []), ("--skip", skip or [])):
+        for p in sel:
+            q = p.strip().lower()
+            known = any(q in (spec.family, spec.key) for spec in registry.values()) or any(
+                i.lower() == q or i.lower().startswith(q + " ") for i in ids
+            )
+            if not known:
+                raise InputError(
+                    f"{option} {p!r} names no check or family",
+                    "",
+                    "see `rngassay catalog` for keys and families, or `--plan-only` for identifiers",
+                )
 
 
 def _family_order(f: str) -> int:

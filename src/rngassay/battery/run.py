@@ -7,6 +7,7 @@ data a check sees depends only on the plan, and results are collected in plan or
 from __future__ import annotations
 
 import concurrent.futures as cf
+from concurrent.futures.process import BrokenProcessPool
 import os
 import time
 from dataclasses import dataclass, field
@@ -113,19 +114,30 @@ class Executor:
         if self._pool is not None:
             self._pool.shutdown(wait=exc[0] is None, cancel_futures=True)
 
-    def run_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]):
-        """Run checks on one segment; the checks are spread over the workers in fixed slices."""
+    def submit_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]) -> Any:
+        """Start checks on one segment (spread over the workers in fixed slices); see :meth:`collect`."""
         if self._pool is None or len(checks) < 2:
-            return _run_segment_task(vals, fmt, checks)
+            return ("done", _run_segment_task(vals, fmt, checks))
         w = min(self.workers, len(checks))
         # interleaved slices balance expensive and cheap checks; results are put back in plan order
         slices = [list(range(i, len(checks), w)) for i in range(w)]
         futs = [self._pool.submit(_run_segment_task, vals, fmt, [checks[j] for j in s]) for s in slices]
-        out: list[Any] = [None] * len(checks)
-        for s, fut in zip(slices, futs):
-            for j, r in zip(s, fut.result()):
+        return ("futures", slices, futs, len(checks))
+
+    def collect(self, handle: Any) -> list:
+        """Results of a submitted segment, in plan order."""
+        if handle[0] == "done":
+            return handle[1]
+        _, slices, futs, n = handle
+        out: list[Any] = [None] * n
+        for sl, fut in zip(slices, futs):
+            for j, r in zip(sl, fut.result()):
                 out[j] = r
         return out
+
+    def run_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]):
+        """Run checks on one segment and wait for them."""
+        return self.collect(self.submit_segment(vals, fmt, checks))
 
 
 def run_plan(
@@ -147,17 +159,38 @@ def run_plan(
     reason = None
     try:
         if plan.shared:
-            for j in range(plan.segments):
-                if progress:
-                    progress(f"segment {j + 1}/{plan.segments}: {len(todo)} checks")
-                vals = _read_segment(stream, plan)
-                active = [o for o in outcomes if j < o.check.replicates]
-                for o, (res, err, sec) in zip(active, executor.run_segment(vals, plan.fmt, [o.check for o in active])):
+            # read (and hash) segment j + 1 while the workers check segment j
+            pending = None
+
+            def absorb(j: int, active: list[Outcome], handle: Any) -> None:
+                for o, (res, err, sec) in zip(active, executor.collect(handle)):
                     o.bytes += o.check.bytes
                     o.seconds += sec
                     o.results[j] = res
                     if err:
                         o.errors.append(f"replicate {j + 1}: {err}")
+
+            try:
+                for j in range(plan.segments):
+                    if progress:
+                        progress(f"segment {j + 1}/{plan.segments}: {len(todo)} checks")
+                    vals = _read_segment(stream, plan)
+                    active = [o for o in outcomes if j < o.check.replicates]
+                    handle = executor.submit_segment(vals, plan.fmt, [o.check for o in active])
+                    if pending is not None:
+                        absorb(*pending)
+                    pending = (j, active, handle)
+            except BaseException:
+                # keep what finished: the segment already being checked still counts
+                if pending is not None:
+                    try:
+                        absorb(*pending)
+                    except BaseException:
+                        pass
+                    pending = None
+                raise
+            if pending is not None:
+                absorb(*pending)
         else:
             for j in range(plan.segments):
                 if progress:
@@ -189,7 +222,7 @@ def run_plan(
         # bad or missing data mid-run: keep what finished, and let the caller report the error
         e.partial = outcomes  # type: ignore[attr-defined]
         raise
-    except cf.process.BrokenProcessPool:
+    except BrokenProcessPool:
         reason = "a worker process died"
     return outcomes, reason is None, reason
 

@@ -229,7 +229,17 @@ class ArraySource(RawSource):
         got = len(out[0])
         self._pending = self._pending[n:]
         while got < n:
-            b = _as_bytes(self._draw(n - got), self.name)
+            try:
+                drawn = self._draw(n - got)
+            except InputError:
+                raise
+            except Exception as e:  # the user's generator failed mid-stream: a dying source
+                raise InputError(
+                    f"the generator raised {type(e).__name__}: {e} after {got} bytes of this read",
+                    f"--python {self.name}" if self.kind == "python" else self.name,
+                    "fix the generator; the report written so far is marked incomplete",
+                ) from None
+            b = _as_bytes(drawn, self.name)
             if not b:
                 break
             if len(b) > n - got:

@@ -11,9 +11,11 @@ Each check gets one change label, decided in this order:
    -log10 p fell by at least ``MARKED``;
 6. ``same`` otherwise.
 
-**NEW is worse** (``DiffResult.worse``; exit 1 at the command line) when any check
+**NEW is worse** (``DiffResult.worse``; exit 1 at the command line) when NEW is marked incomplete, or
+when any check
 
 - is a ``new fail``, or was ``added`` with grade ``fail``;
+- was ``removed`` (a check that no longer runs can no longer vouch for anything);
 - went from ``pass`` to ``borderline``;
 - or shows markedly stronger evidence, judged on the Holm-adjusted p-values (``adjusted_p``) when both
   reports carry them: -log10 adjusted p rose by at least 3 *and* the new adjusted p is below 0.01.
@@ -63,6 +65,7 @@ class DiffResult:
     new_verdict: str | None
     base_source: dict[str, Any] = field(default_factory=dict)
     new_source: dict[str, Any] = field(default_factory=dict)
+    new_incomplete: bool = False
 
     def counts(self) -> dict[str, int]:
         return {k: sum(1 for r in self.rows if r.change == k) for k in _ORDER}
@@ -95,8 +98,8 @@ def _compare(cid: str, b: dict[str, Any] | None, n: dict[str, Any] | None) -> Di
     delta = _nl(np_) - _nl(bp) if bp is not None and np_ is not None else None
     if b is None:
         return DiffRow(cid, None, None, ng, np_, "added", None, ng == "fail")
-    if n is None:
-        return DiffRow(cid, bg, bp, None, None, "removed", None, False)
+    if n is None:  # a check that vanished can no longer vouch for anything: a gate must notice
+        return DiffRow(cid, bg, bp, None, None, "removed", None, True)
     br, nr = _RANK.get(bg, 2), _RANK.get(ng, 2)  # an unknown grade is treated as fail (the safe side)
     marked_up = delta is not None and delta >= MARKED
     marked_down = delta is not None and delta <= -MARKED
@@ -130,7 +133,8 @@ def diff_reports(base: dict[str, Any] | Report, new: dict[str, Any] | Report) ->
     rows.sort(key=lambda r: (not r.worse, rank[r.change], -(r.delta or 0.0), r.id))
     return DiffResult(
         rows=rows,
-        worse=any(r.worse for r in rows),
+        worse=any(r.worse for r in rows) or bool(n.get("incomplete")),
+        new_incomplete=bool(n.get("incomplete")),
         base_verdict=b.get("verdict"),
         new_verdict=n.get("verdict"),
         base_source=dict(b.get("source") or {}),
@@ -161,9 +165,11 @@ def render_diff_text(result: DiffResult, show_same: bool = False) -> str:
     c = r.counts()
     lines.append(", ".join(f"{v} {k}" for k, v in c.items() if v) or "no checks in either report")
     n_worse = sum(1 for x in r.rows if x.worse)
-    if r.worse:
-        lines.append(f"NEW IS WORSE: {n_worse} check{'s' if n_worse != 1 else ''} now show{'s' if n_worse == 1 else ''} "
-                     "more evidence against randomness than in the base report")
+    if r.new_incomplete:
+        lines.append("new is worse: the new report is marked incomplete (an interrupted or failed run)")
+    if r.worse and n_worse:
+        lines.append(f"new is worse: {n_worse} check{'s' if n_worse != 1 else ''} now show{'s' if n_worse == 1 else ''} "
+                     "more evidence against randomness than in the base report, or no longer ran")
     else:
         lines.append("new is not worse than base")
     shown = [x for x in r.rows if show_same or x.change != "same"]
@@ -185,7 +191,8 @@ def render_diff_text(result: DiffResult, show_same: bool = False) -> str:
         lines.append(f"  ({hidden} unchanged check{'s' if hidden != 1 else ''} not shown)")
     lines.append("")
     lines.append(
-        "rule: new is worse when a check newly fails, goes from pass to borderline, or its -log10 p rises by "
-        f"at least {MARKED:g} with the new p below {WORSE_P:g} ('!' marks these)"
+        "rule: new is worse when a check newly fails, goes from pass to borderline, is removed, or its "
+        f"Holm-adjusted -log10 p rises by at least {MARKED:g} to an adjusted p below {WORSE_ADJ:g} (raw p below "
+        f"{WORSE_P:g} for reports without adjusted p-values), or when the new report is incomplete ('!' marks checks)"
     )
     return "\n".join(lines) + "\n"

@@ -35,22 +35,15 @@ REF = "#555555"
 
 # -- numbers -------------------------------------------------------------------------------------------------
 def holm_adjust(p: Sequence[float] | np.ndarray) -> np.ndarray:
-    """Holm (1979) step-down adjusted p-values: ``max_{j<=i} min(1, (m - j + 1) p_(j))`` in sorted order.
+    """Holm (1979) adjusted p-values (:func:`rngassay.stats.holm_adjusted`); non-finite entries stay NaN
+    and do not count towards ``m``."""
+    from ..stats import holm_adjusted
 
-    Non-finite entries stay NaN and do not count towards ``m``.
-    """
     p = np.asarray(p, dtype=float)
     out = np.full(p.shape, np.nan)
     ok = np.isfinite(p)
-    q = p[ok]
-    m = q.size
-    if m == 0:
-        return out
-    order = np.argsort(q, kind="stable")
-    scaled = np.minimum(1.0, (m - np.arange(m)) * q[order])
-    adj = np.empty(m)
-    adj[order] = np.maximum.accumulate(scaled)
-    out[ok] = adj
+    if ok.any():
+        out[ok] = holm_adjusted(p[ok])
     return out
 
 

@@ -14,9 +14,29 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
-from .model import SCHEMA
+from .model import GRADES, SCHEMA
 
 SCHEMA_PREFIX = "rngassay-report/"
+
+
+def check_report_paths(outputs: list[tuple[str, str]], inputs: list[str]) -> None:
+    """Refuse report paths that would destroy something: an input file, a device or pipe, a folder,
+    the same file twice, or a path in a folder that does not exist. Called before any work is done."""
+    seen: set[str] = set()
+    real_inputs = [os.path.realpath(p) for p in inputs if p and p != "-" and os.path.exists(p)]
+    for what, path in outputs:
+        full = os.path.realpath(path)
+        if full in seen:
+            raise InputError("two reports would be written to the same file", path, "give each report its own path")
+        seen.add(full)
+        if full in real_inputs:
+            raise InputError(f"the {what} would overwrite an input file", path, "choose another report path")
+        if os.path.isdir(full):
+            raise InputError(f"{what} path is a directory", path, "give a file name")
+        if os.path.exists(full) and not os.path.isfile(full):
+            raise InputError(f"{what} path is a device, pipe or socket, not a regular file", path, "give a file name")
+        if not os.path.isdir(os.path.dirname(full)):
+            raise InputError(f"cannot write {what}: folder does not exist", path, "create the folder or choose another path")
 
 
 def write_atomic(path: str | os.PathLike[str], data: str | bytes) -> None:
@@ -25,10 +45,15 @@ def write_atomic(path: str | os.PathLike[str], data: str | bytes) -> None:
     Raises :class:`InputError` when the parent directory is missing, when ``path`` is an existing directory,
     or when the file system refuses the write; no partial file and no temporary file is left behind.
     """
-    target = Path(path)
-    where = str(target)
+    where = str(path)
+    target = Path(os.path.realpath(path))  # a symlink's target gets the report, not the link replaced
     if isinstance(data, str):
         data = data.encode("utf-8")
+    if target.exists() and not target.is_file() and not target.is_dir():
+        raise InputError(
+            "cannot write report: the path is a device, pipe or socket, not a regular file", where,
+            "give a file name, e.g. report.json",
+        )
     if target.is_dir():
         raise InputError("cannot write report: the path is a directory", where, "give a file name, e.g. report.html")
     parent = target.parent if str(target.parent) else Path(".")
@@ -106,4 +131,19 @@ def read_report_json(path: str | os.PathLike[str]) -> dict[str, Any]:
         raise InputError(what, where, hint_json)
     if not isinstance(d.get("checks"), list):
         raise InputError("damaged report: 'checks' is missing or not a list", where, "write the report again")
+    if not isinstance(d.get("source", {}), dict):
+        raise InputError("damaged report: 'source' is not an object", where, "write the report again")
+    for i, c in enumerate(d["checks"]):
+        bad = None
+        if not isinstance(c, dict):
+            bad = "is not an object"
+        elif not isinstance(c.get("id"), str):
+            bad = "has no text 'id'"
+        elif c.get("grade") not in GRADES:
+            bad = f"has an unknown grade {c.get('grade')!r}"
+        elif not (isinstance(c.get("p_value"), (int, float)) and not isinstance(c.get("p_value"), bool)
+                  and 0.0 <= c["p_value"] <= 1.0):
+            bad = "has no p_value between 0 and 1"
+        if bad:
+            raise InputError(f"damaged report: check {i + 1} {bad}", where, "write the report again")
     return d

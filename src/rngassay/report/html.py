@@ -32,7 +32,7 @@ def format_p(p: float | None) -> str:
         return "n/a"
     if not math.isfinite(p):
         return "n/a"
-    if p <= 0.0:
+    if p < P_TINY:  # at the floor (2.2e-308 times a small factor): the exact figure means nothing
         return f"< {P_TINY:.0e}"
     return f"{p:.2e}"
 
