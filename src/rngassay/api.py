@@ -67,6 +67,7 @@ def assay(
     retest: bool = True,
     progress: Callable[[str], None] | None = None,
     plan_only: bool = False,
+    cluster: str | None = None,
 ) -> Report | Plan:
     """Assay a stream and return its :class:`~rngassay.report.model.Report`.
 
@@ -83,6 +84,12 @@ def assay(
         raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
     explicit = budget is not None
     budget_bytes = parse_size(budget) if explicit else DEFAULT_BUDGET
+    executor = None
+    if cluster is not None and not plan_only:
+        from .battery.cluster import DaskExecutor
+
+        # connect before any data is read (unreachable: one InputError line); run_battery's `with` closes it
+        executor = DaskExecutor(cluster).__enter__()
     stream = open_stream(
         source, fmt=fmt, value_range=value_range, command=command, shell=shell, python=python, gen=gen, seed=seed
     )
@@ -129,11 +136,21 @@ def assay(
             plan.budget_bytes = budget_bytes
         if plan_only:
             return plan
+        settings = {"workers_used": workers, "retest": retest}
+        if executor is not None:
+            settings = {"executor": executor.describe(), "retest": retest}
         report = run_battery(
             stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
-            settings={"workers_used": workers, "retest": retest}, t0=t0,
+            settings=settings, t0=t0, executor=executor,
         )
     return report
+
+
+def sweep_seeds(*args, **kwargs):
+    """The seed sweep; see :func:`rngassay.seeds.sweep.sweep_seeds` (same arguments, returns a Report)."""
+    from .seeds.sweep import sweep_seeds as _sweep
+
+    return _sweep(*args, **kwargs)
 
 
 class _MemorySource(RawSource):

@@ -168,9 +168,11 @@ def _split(values: tuple[str, ...]) -> list[str] | None:
 @click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
 @click.option("--no-retest", is_flag=True, help="Do not retest borderline checks on fresh data.")
 @click.option("--plan-only", is_flag=True, help="Show the plan (checks, parameters, bytes, replicates) and stop.")
+@click.option("--cluster", default=None, metavar="ADDRESS",
+              help="Run the checks on a Dask cluster, e.g. tcp://host:8786 (pip install 'rngassay[cluster]').")
 @_report_options
 def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, budget, checks, skip, alpha,
-             workers, no_retest, plan_only, json_path, html_path, junit_path, strict, quiet) -> None:
+             workers, no_retest, plan_only, cluster, json_path, html_path, junit_path, strict, quiet) -> None:
     """Assay a stream: read it, run the checks, grade, report; exit 0 pass, 1 fail, 2 bad input."""
     from . import api
 
@@ -186,6 +188,7 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
             source, fmt=fmt, value_range=value_range, command=command, shell=shell, python=python_spec,
             gen=gen, seed=seed, budget=budget, checks=_split(checks), skip=_split(skip), alpha=alpha,
             workers=workers or (os.cpu_count() or 1), retest=not no_retest, progress=progress, plan_only=plan_only,
+            cluster=cluster,
         )
     except InputError as e:
         partial = getattr(e, "partial_report", None)
@@ -346,5 +349,7 @@ def diff(base: str, new: str, show_all: bool) -> None:
 
 
 from .fitting import register_cli as _register_fit  # noqa: E402  (adds `rngassay fit`)
+from .seeds.cli import register_cli as _register_seeds  # noqa: E402  (adds `rngassay seeds`)
 
 _register_fit(cli)
+_register_seeds(cli)

@@ -25,12 +25,13 @@ def run_battery(
     command: str = "test",
     settings: dict[str, Any] | None = None,
     t0: float | None = None,
+    executor: Executor | None = None,
 ) -> Report:
     t0 = time.perf_counter() if t0 is None else t0
     registry = load_all()
     notes: list[str] = list(f"left out {s}" for s in plan.skipped)
     stop_error = None
-    with Executor(workers) as ex:
+    with (executor if executor is not None else Executor(workers)) as ex:
         try:
             outcomes, complete, reason = run_plan(stream, plan, ex, progress=progress)
         except InputError as e:

@@ -1,9 +1,9 @@
 """Running the battery's (and the seed sweep's) tasks on a Dask distributed cluster.
 
 :class:`DaskExecutor` can stand in for :class:`rngassay.battery.run.Executor`: it is a context manager,
-has ``run_segment(vals, fmt, checks)`` and a ``_pool`` whose ``submit(fn, *args)`` returns futures with
-``.result()``. Tasks are the same pure functions the local process pool runs, so results are identical
-whichever executor runs them.
+has ``submit_segment``/``collect``/``run_segment(vals, fmt, checks)`` and a ``_pool`` whose
+``submit(fn, *args)`` returns futures with ``.result()``. Tasks are the same pure functions the local
+process pool runs, so results are identical whichever executor runs them.
 
 Failures: Dask retries a task whose worker died (``distributed.scheduler.allowed-failures``, default 3).
 When it gives up (``KilledWorker``) or the connection to the scheduler is lost, ``.result()`` raises
@@ -156,18 +156,19 @@ class DaskExecutor(Executor):
             addr = self.address
         return f"dask {addr}"
 
-    def run_segment(self, vals: np.ndarray, fmt, checks):
-        """Run checks on one segment, spread over the cluster in fixed interleaved slices (plan order kept)."""
+    def submit_segment(self, vals: np.ndarray, fmt, checks) -> Any:
+        """Start checks on one segment, spread over the cluster in fixed interleaved slices; the segment is
+        sent to the cluster once. :meth:`collect` (inherited) returns the results in plan order."""
         if self._pool is None:
             raise RuntimeError("DaskExecutor used outside its `with` block")
         if not checks:
-            return []
+            return ("done", [])
         w = max(1, min(self.workers, len(checks)))
         slices = [list(range(i, len(checks), w)) for i in range(w)]
-        data = self._pool.scatter(vals) if len(slices) > 1 else vals  # send the segment once
+        data = self._pool.scatter(vals) if len(slices) > 1 else vals
         futs = [self._pool.submit(_run_segment_task, data, fmt, [checks[j] for j in s]) for s in slices]
-        out: list[Any] = [None] * len(checks)
-        for s, fut in zip(slices, futs):
-            for j, r in zip(s, fut.result()):
-                out[j] = r
-        return out
+        return ("futures", slices, futs, len(checks))
+
+    def run_segment(self, vals: np.ndarray, fmt, checks):
+        """Run checks on one segment and wait for them (results in plan order)."""
+        return self.collect(self.submit_segment(vals, fmt, checks))

@@ -59,6 +59,7 @@ class CheckSpec:
 
 
 REGISTRY: dict[str, CheckSpec] = {}
+_ALL_LOADED = False
 
 
 def register(spec: CheckSpec) -> CheckSpec:
@@ -74,6 +75,9 @@ def register(spec: CheckSpec) -> CheckSpec:
 
 def load_all() -> dict[str, CheckSpec]:
     """Import every check module so that the registry is complete, and return it."""
+    global _ALL_LOADED
+    if _ALL_LOADED:  # the module scan costs ~0.7 ms, and call_check runs it for every check and segment
+        return REGISTRY
     import importlib
     import pkgutil
 
@@ -83,6 +87,7 @@ def load_all() -> dict[str, CheckSpec]:
         for mod in pkgutil.iter_modules(pkg.__path__):
             if not mod.name.startswith("_"):
                 importlib.import_module(f"{pkg.__name__}.{mod.name}")
+    _ALL_LOADED = True
     return REGISTRY
 
 

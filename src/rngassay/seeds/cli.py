@@ -1,0 +1,122 @@
+"""``rngassay seeds``: the seed sweep at the command line. ``register_cli(group)`` adds the command."""
+
+from __future__ import annotations
+
+import os
+import sys
+
+import click
+
+from .defaults import (
+    DEFAULT_AVALANCHE_SEEDS,
+    DEFAULT_AVALANCHE_SEEDS_COMMAND,
+    DEFAULT_EARLY_BYTES,
+    DEFAULT_LAGS,
+    ROW_KEYS,
+    SEED_SETS,
+)
+
+
+def _ints(text: str, option: str) -> tuple[int, ...]:
+    from ..errors import InputError
+
+    try:
+        out = tuple(int(x) for x in text.split(",") if x.strip())
+    except ValueError:
+        raise InputError(f"cannot read {option} {text!r}", option, "write a comma list, e.g. 2,4") from None
+    return out
+
+
+def register_cli(group: click.Group) -> click.Command:
+    """Add the ``seeds`` command to ``group`` (once) and return it."""
+    if "seeds" in group.commands:
+        return group.commands["seeds"]
+    from ..cli import EXIT_FAIL, EXIT_OK, Progress, _check_outputs, _report_options, _split, _write_outputs
+
+    sets = "; ".join(f"{k}: {v}" for k, v in SEED_SETS.items())
+
+    @group.command("seeds")
+    @click.option("--python", "python_spec", default=None, metavar="FILE.py:FACTORY",
+                  help="FACTORY(seed) returns a numpy BitGenerator, Generator or draw(n_bytes) callable "
+                       "(also package.module:FACTORY).")
+    @click.option("--command", default=None, metavar="CMD",
+                  help="A command run once per seed with {seed} replaced, e.g. \"mygen --seed {seed}\".")
+    @click.option("--shell", is_flag=True, help="Run --command through the shell.")
+    @click.option("--gen", default=None, metavar="NAME", help="A built-in reference generator (see `rngassay catalog`).")
+    @click.option("--seeds", "seeds_spec", default=None, metavar="SPEC",
+                  help="Seeds: an inclusive range 0..999, a list 1,5,9 (items may be ranges) or @FILE (one per line).")
+    @click.option("--seed-set", default=None, metavar="NAME", help=f"A ready-made adversarial set. {sets}.")
+    @click.option("--bytes-per-seed", default="64KiB", show_default=True, metavar="SIZE",
+                  help="Bytes of each seed's stream (a multiple of 8, at least 64).")
+    @click.option("--checks", "checks", multiple=True, metavar="SEL",
+                  help=f"Run only these seed checks: {', '.join(ROW_KEYS)}, or full identifiers.")
+    @click.option("--skip", "skip", multiple=True, metavar="SEL", help="Leave out these seed checks (same selectors).")
+    @click.option("--per-seed-checks", "per_seed", multiple=True, metavar="SEL",
+                  help="Battery checks to run on every seed's stream (key, family or identifier; "
+                       "default: a lean subset of nine).")
+    @click.option("--lags", default=DEFAULT_LAGS, show_default=True, type=int, metavar="L",
+                  help="Cross-correlation of adjacent seeds at lags -L..L.")
+    @click.option("--interleave", "interleave", default="2,4", show_default=True, metavar="K,..",
+                  help="Merge K adjacent seeds' streams word by word (K = 2 and/or 4).")
+    @click.option("--merge-budget", default="16MiB", show_default=True, metavar="SIZE",
+                  help="Bytes of each merged stream (interleaved, XOR-ed) given to the battery.")
+    @click.option("--avalanche-seeds", default=None, type=int, metavar="N",
+                  help=f"Base seeds of the avalanche check (default {DEFAULT_AVALANCHE_SEEDS}; "
+                       f"{DEFAULT_AVALANCHE_SEEDS_COMMAND} with --command); 0 to leave it out.")
+    @click.option("--seed-bits", default=64, show_default=True, type=int, metavar="N",
+                  help="Seed width: the avalanche flips bits 0..N-1; every seed must be below 2**N.")
+    @click.option("--early-bytes", default=DEFAULT_EARLY_BYTES, show_default=True, type=int, metavar="P",
+                  help="Output byte positions 0..P-1 checked across seeds.")
+    @click.option("--alpha", default=1e-3, type=float, show_default=True,
+                  help="Family-wise false-alarm rate of a run (Holm over the seed checks).")
+    @click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
+    @click.option("--cluster", default=None, metavar="ADDRESS",
+                  help="Run on a Dask cluster, e.g. tcp://host:8786 (pip install 'rngassay[cluster]').")
+    @_report_options
+    def seeds_cmd(python_spec, command, shell, gen, seeds_spec, seed_set, bytes_per_seed, checks, skip, per_seed,
+                  lags, interleave, merge_budget, avalanche_seeds, seed_bits, early_bytes, alpha, workers, cluster,
+                  json_path, html_path, junit_path, strict, quiet) -> None:
+        """Sweep seeds: one stream per seed, checks of how the streams relate; exit 0 pass, 1 fail, 2 bad input.
+
+        \b
+        Checks (family "seeds", Holm across them):
+          per-seed CHECK      a lean battery on every seed's stream, second level across seeds
+          interleave k=K      adjacent seeds' streams merged word by word, then the battery
+          xor pairs           XOR of paired seeds' streams, then the battery
+          cross-correlation   lagged correlation between adjacent seeds' streams
+          avalanche           output bits changed by flipping one seed bit
+          duplicates and overlaps   identical or shifted streams across seeds
+          early bytes         each early output byte's distribution across seeds
+        """
+        from ..errors import InputError
+        from .sweep import sweep_seeds
+
+        if workers is not None and workers < 1:
+            raise InputError(f"--workers must be at least 1, got {workers}", "", "e.g. --workers 2")
+        if cluster is not None and workers is not None:
+            raise InputError("--workers and --cluster given", "", "the cluster's workers do the work; drop --workers")
+        if avalanche_seeds is not None and avalanche_seeds < 0:
+            raise InputError(f"--avalanche-seeds must be >= 0, got {avalanche_seeds}", "", "e.g. 128")
+        outputs = _check_outputs(json_path, html_path, junit_path)
+        progress = Progress(quiet)
+        try:
+            report = sweep_seeds(
+                seeds_spec, seed_set=seed_set, python=python_spec, command=command, shell=shell, gen=gen,
+                bytes_per_seed=bytes_per_seed, checks=_split(checks), skip=_split(skip),
+                per_seed_checks=_split(per_seed), lags=lags, interleave=_ints(interleave, "--interleave"),
+                merge_budget=merge_budget, avalanche_seeds=avalanche_seeds, seed_bits=seed_bits,
+                early_bytes=early_bytes, alpha=alpha, workers=workers or (os.cpu_count() or 1) if cluster is None
+                else None, cluster=cluster, progress=progress,
+            )
+        finally:
+            progress.done()
+        _write_outputs(report, outputs)
+        click.echo(report.to_text(color=sys.stdout.isatty()))
+        for what, path in outputs:
+            click.echo(f"{what:<12} {path}")
+        code = report.exit_code(strict=strict)
+        if report.incomplete:
+            code = 130 if any("interrupted" in n for n in report.notes) else max(code, EXIT_FAIL)
+        raise click.exceptions.Exit(code if code is not None else EXIT_OK)
+
+    return seeds_cmd

@@ -1,0 +1,769 @@
+"""The seed sweep: many seeds, one stream each, checks of how the streams relate.
+
+How the work is split
+---------------------
+The seeds (in the order given) are cut into blocks of ``block`` seeds (default 32, a multiple of 4).
+One task per block makes the block's streams (``bytes_per_seed`` bytes each) and returns, per seed,
+the results of the per-seed checks, the first ``early_bytes`` bytes, the SHA-256 of the stream and its
+content-selected 16-byte windows; per adjacent pair (the block's last seed is paired with the next
+block's first, whose stream the task makes too) the lagged cross-correlation z-scores; and, for the
+first groups only (up to ``merge_budget`` bytes per merged stream), the interleaved and XOR-ed streams.
+Avalanche tasks take the first 16 bytes of the streams of seeds whose bits were flipped. Every task
+is a pure function of (factory, seeds, settings) and the results are combined in seed order, so the
+report is the same (timings aside) for any block size, any number of workers and any executor.
+
+The checks (family ``seeds``; every row has its own p-value and grade, Holm across the rows)
+--------------------------------------------------------------------------------------------
+- ``per-seed CHECK``: a lean subset of the battery on every seed's stream (:data:`DEFAULT_PER_SEED`,
+  from 4 KiB per seed), then the battery's second level (:func:`rngassay.battery.grade.second_level`)
+  over the seeds' p-values, one row per check; when the p-values sit on a coarse lattice the uniformity
+  and proportion tests are left out (see :func:`_coarse`).
+- ``interleave k=K``: the streams of K adjacent seeds merged 8-byte word by word (groups of K seeds
+  in order), concatenated over the first groups up to ``merge_budget`` bytes; then the battery.
+- ``xor pairs``: the XOR of the streams of seed pairs (1st ^ 2nd, 3rd ^ 4th, ...) concatenated up to
+  ``merge_budget``; then the battery. A merged stream's p-value is the Bonferroni minimum over the
+  battery's checks (the smallest Holm-adjusted p-value within it); a merged stream shorter than the
+  battery's minimum (64 KiB) is left out with a note.
+- ``cross-correlation lags=L``: :func:`rngassay.seeds.measures.cross_correlation` on adjacent pairs.
+- ``avalanche``: :func:`rngassay.seeds.measures.avalanche` on the first ``avalanche_seeds`` seeds, each
+  with every one of its ``seed_bits`` low bits flipped in turn.
+- ``duplicates and overlaps``: :func:`rngassay.seeds.measures.overlaps`.
+- ``early bytes``: :func:`rngassay.seeds.measures.early_bytes` on bytes 0..P-1 of every stream.
+"""
+
+from __future__ import annotations
+
+import concurrent.futures as cf
+import dataclasses
+import hashlib
+import math
+import time
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+import numpy as np
+
+from ..battery import grade as G
+from ..battery.plan import PlannedCheck, make_plan
+from ..battery.run import Outcome, ViewCache, run_plan
+from ..checks.result import CheckResult
+from ..checks.registry import load_all
+from ..errors import InputError
+from ..intake.formats import parse_format
+from ..intake.sources import RawSource
+from ..intake.stream import Stream
+from ..report.model import CheckReport, Report, Round
+from ..sizes import format_size
+from . import kernels as K
+from . import measures as M
+from .defaults import (
+    AVALANCHE_BYTES,
+    DEFAULT_AVALANCHE_SEEDS,
+    DEFAULT_AVALANCHE_SEEDS_COMMAND,
+    DEFAULT_BLOCK,
+    DEFAULT_BYTES_PER_SEED,
+    DEFAULT_EARLY_BYTES,
+    DEFAULT_LAGS,
+    DEFAULT_MERGE_BUDGET,
+    MIN_PER_SEED_BYTES,
+    ROW_KEYS,
+)
+from .factory import SeedFactory
+from .runner import SweepRunner, TaskFailure
+
+FAMILY = "seeds"
+#: The lean per-seed subset: cheap checks of different kinds (bits, bytes, uniforms, spacings); for each
+#: key the first parameter set the registry proposes for the stream length.
+DEFAULT_PER_SEED = (
+    "monobit frequency", "runs of bits", "cumulative sums", "longest run of ones", "byte frequency",
+    "serial correlation", "gap", "serial overlapping", "birthday spacings",
+)
+_U1 = parse_format("u1")
+
+
+@dataclass
+class SweepOptions:
+    bytes_per_seed: int = DEFAULT_BYTES_PER_SEED
+    per_seed_checks: list[str] | None = None  # battery selectors; None: DEFAULT_PER_SEED (first variants)
+    lags: int = DEFAULT_LAGS
+    interleave: tuple[int, ...] = (2, 4)
+    merge_budget: int = DEFAULT_MERGE_BUDGET
+    avalanche_seeds: int | None = None  # None: 128 (16 for --command)
+    seed_bits: int = 64
+    early_bytes: int = DEFAULT_EARLY_BYTES
+    block: int = DEFAULT_BLOCK
+    checks: list[str] | None = None  # rows to run (ROW_KEYS, ids); None: all
+    skip: list[str] | None = None
+
+
+@dataclass
+class _Cfg:
+    """What a block task needs (picklable)."""
+
+    B: int
+    per_seed: list[PlannedCheck]
+    early: int
+    lags: int  # -1: no cross-correlation
+    spacing: int
+    cap: int
+    overlaps: bool
+    groups: dict[int, int]  # interleave k -> number of groups merged
+    xor_groups: int  # number of XOR pairs merged (0: none)
+
+
+@dataclass
+class _Block:
+    start: int
+    n: int
+    digests: np.ndarray
+    early: np.ndarray
+    anchors: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+    per_seed: list[list[tuple[Any, str | None]]]  # [check][seed] -> (results or None, error)
+    seconds: list[float]
+    z: np.ndarray
+    merged: dict[int, np.ndarray] = field(default_factory=dict)
+    xor: np.ndarray | None = None
+
+
+# ------------------------------------------------------------------------------------------------ tasks
+
+
+def _block_task(factory: SeedFactory, seeds: np.ndarray, start: int, halo: int | None, cfg: _Cfg) -> _Block:
+    B = cfg.B
+    mat = factory.streams(seeds, B)
+    n = len(seeds)
+    per: list[list[tuple[Any, str | None]]] = [[] for _ in cfg.per_seed]
+    secs = [0.0] * len(cfg.per_seed)
+    if cfg.per_seed:
+        registry = load_all()  # once per task: the lookup is not free
+        specs = [registry[pc.key] for pc in cfg.per_seed]
+        for i in range(n):  # one battery call per seed
+            cache = ViewCache(mat[i], _U1)
+            for j, (pc, spec) in enumerate(zip(cfg.per_seed, specs)):
+                t = time.perf_counter()
+                try:
+                    res = _call_check(pc, spec, cache)
+                    per[j].append(([dataclasses.replace(r, details={}) for r in res], None))  # what grading needs
+                except Exception as e:  # one broken check must not take the others down
+                    per[j].append((None, f"{type(e).__name__}: {e}"))
+                secs[j] += time.perf_counter() - t
+    dig = K.digests(mat)
+    if cfg.overlaps:
+        rows, pos, hi, lo = K.anchors(mat, cfg.spacing, cfg.cap)
+        anchors = ((rows + start).astype(np.int32), pos, hi, lo)
+    else:
+        e = np.empty(0, np.int32)
+        anchors = (e, e.copy(), np.empty(0, np.uint64), np.empty(0, np.uint64))
+    z = np.empty((0, 2 * max(cfg.lags, 0) + 1))
+    if cfg.lags >= 0:
+        both = mat if halo is None else np.vstack([mat, factory.stream(halo, B)[None, :]])
+        z = K.cross_z(both, cfg.lags)
+    merged: dict[int, np.ndarray] = {}
+    for k, ngroups in cfg.groups.items():  # groups of k seeds never straddle blocks (block % 4 == 0)
+        g0 = -(-start // k)
+        g1 = min(ngroups, (start + n) // k)
+        if g1 > g0:
+            parts = [K.interleave(mat[g * k - start : g * k - start + k]) for g in range(g0, g1)]
+            merged[k] = np.concatenate(parts)
+    xor = None
+    g0, g1 = -(-start // 2), min(cfg.xor_groups, (start + n) // 2)
+    if g1 > g0:
+        a = mat[2 * g0 - start : 2 * g1 - start : 2]
+        b = mat[2 * g0 - start + 1 : 2 * g1 - start : 2]
+        xor = np.bitwise_xor(a, b).reshape(-1)
+    early = mat[:, : cfg.early].copy()
+    return _Block(start, n, dig, early, anchors, per, secs, z, merged, xor)
+
+
+def _call_check(pc: PlannedCheck, spec: Any, cache: ViewCache) -> list[CheckResult]:
+    """:func:`rngassay.battery.run.call_check` with the registry entry passed in (same views, same data)."""
+    params = dict(pc.params)
+    need = pc.values
+    if pc.view == "bits":
+        packed, nbits = cache.get("bits")
+        res = spec.func(packed[: -(-min(nbits, need) // 8)], **params)
+    elif pc.view == "integers":
+        x, k = cache.get("integers", params.get("k"))
+        params["k"] = k
+        res = spec.func(x[:need], **params)
+    else:
+        res = spec.func(cache.get(pc.view)[:need], **params)
+    return [res] if isinstance(res, CheckResult) else list(res)
+
+
+def _avalanche_task(factory: SeedFactory, a: np.ndarray, b: np.ndarray, nbytes: int) -> np.ndarray:
+    verts = np.unique(np.concatenate([a, b]))
+    first = factory.streams(verts, nbytes)
+    ia = np.searchsorted(verts, a)
+    ib = np.searchsorted(verts, b)
+    return K.hamming(first[ia], first[ib])
+
+
+# ------------------------------------------------------------------------------------------- the sweep
+
+
+class _BytesSource(RawSource):
+    kind = "derived"
+
+    def __init__(self, name: str, data: np.ndarray):
+        super().__init__(name)
+        self._data = np.ascontiguousarray(data, dtype=np.uint8)
+        self._pos = 0
+
+    def size_hint(self) -> int | None:
+        return int(self._data.size)
+
+    def read(self, n: int) -> bytes:
+        out = self._data[self._pos : self._pos + n].tobytes()
+        self._pos += len(out)
+        return out
+
+
+def _row_selected(key: str, rid: str, checks: list[str] | None, skip: list[str] | None) -> bool:
+    def match(pats: list[str]) -> bool:
+        for p in pats:
+            p = p.strip().lower()
+            if p and (p in (key, FAMILY) or rid.lower() == p or rid.lower().startswith(p + " ")):
+                return True
+        return False
+
+    if checks and not match(checks):
+        return False
+    return not (skip and match(skip))
+
+
+def _spacing(B: int) -> int:
+    s = 1 << max(0, int(math.floor(math.log2(max(B // 64, 1)))))
+    return int(min(1024, max(16, s)))
+
+
+def per_seed_plan(B: int, selectors: list[str] | None) -> tuple[list[PlannedCheck], list[str]]:
+    """The per-seed checks for streams of ``B`` bytes: (checks, notes on what was left out).
+
+    The parameters follow the registry exactly as the battery's plan does for one segment of ``B`` bytes
+    (``default_params(n)`` for the ``n`` view values ``B`` bytes hold; ``values_needed`` of them read),
+    without the battery's 64 KiB minimum: across many seeds, short streams still say something -- down to
+    :data:`MIN_PER_SEED_BYTES` for the default subset, below which its p-values become too coarse.
+    With the default subset only the first parameter set of each check is kept.
+    """
+    from ..battery.plan import _matches, display_id
+    from ..intake import views
+
+    notes: list[str] = []
+    default = selectors is None
+    if default and B < MIN_PER_SEED_BYTES:
+        return [], [f"per-seed checks left out: streams of {B} bytes are shorter than {MIN_PER_SEED_BYTES} "
+                    "(their p-values would be too coarse across many seeds); --per-seed-checks forces them"]
+    sel = list(DEFAULT_PER_SEED) if default else list(selectors or [])
+    registry = load_all()
+    avail = set(views.available_views(_U1))
+    out: list[PlannedCheck] = []
+    matched = False
+    for key, spec in sorted(registry.items(), key=lambda kv: (kv[1].family, kv[0])):
+        if spec.view not in avail or spec.family == "categorical":
+            continue
+        per_value = views.input_bytes_per_value(_U1, spec.view)
+        n_avail = int(B / per_value)
+        if spec.view == "integers":
+            n_avail = int(n_avail * 0.99)  # rejection sampling may drop a few words (as the battery's plan)
+        if _matches(spec, key, sel):
+            matched = True
+        try:
+            param_sets = spec.default_params(n_avail) if n_avail > 0 else []
+        except Exception as e:  # a parameter rule must never take the sweep down
+            notes.append(f"per-seed {key}: parameter rule failed ({type(e).__name__}: {e})")
+            continue
+        kept = 0
+        for params in param_sets:
+            cid = display_id(key, params)
+            if not _matches(spec, cid, sel):
+                continue
+            matched = True
+            need = int(spec.values_needed(params))
+            if need > n_avail:
+                continue
+            nbytes = int(math.ceil(need * per_value))
+            nbytes += (-nbytes) % 8
+            out.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, 1))
+            kept += 1
+            if default:
+                break
+        if not kept and key in sel:
+            notes.append(f"per-seed {key}: needs more than {B} bytes per seed")
+    if not out and not default:
+        what = "no check matches" if not matched else "none can run on streams this short"
+        raise InputError(f"--per-seed-checks {','.join(sel)}: {what}", "",
+                         "give a larger --bytes-per-seed or other checks (see `rngassay catalog`)")
+    order = {k: i for i, k in enumerate(DEFAULT_PER_SEED)}
+    out.sort(key=lambda pc: order.get(pc.key, len(order)))
+    return out, notes
+
+
+def run_sweep(
+    seeds: np.ndarray,
+    factory: SeedFactory,
+    *,
+    options: SweepOptions | None = None,
+    alpha: float = G.DEFAULT_ALPHA,
+    workers: int | None = 1,
+    cluster: str | None = None,
+    client: Any = None,
+    progress: Callable[[str], None] | None = None,
+    seed_spec: str = "",
+) -> Report:
+    """Run the seed sweep and return its :class:`~rngassay.report.model.Report` (command ``seeds``).
+
+    ``seeds``: integers (order kept, no repeats); ``factory``: a :class:`SeedFactory`. ``workers`` local
+    processes, or a Dask cluster by ``cluster`` address or an existing ``client``; the report is the
+    same either way. A task lost for good (a dead worker after Dask's retries, a broken local pool) or
+    Ctrl-C ends the run early: the report covers what finished and is marked incomplete.
+    """
+    t0 = time.perf_counter()
+    o = options or SweepOptions()
+    if not (0 < alpha < 1):
+        raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
+    seeds = np.asarray(seeds, dtype=np.uint64).ravel()
+    S = int(seeds.size)
+    if S == 0:
+        raise InputError("empty seed set", "--seeds", "give at least one seed, e.g. --seeds 0..999")
+    B = int(o.bytes_per_seed)
+    if B < 64 or B % 8:
+        raise InputError(f"--bytes-per-seed must be a multiple of 8 and at least 64, got {B}", "",
+                         "e.g. 64KiB")
+    if not 1 <= o.seed_bits <= 64:
+        raise InputError(f"--seed-bits must be between 1 and 64, got {o.seed_bits}", "--seed-bits", "e.g. 64")
+    if o.seed_bits < 64 and int(seeds.max()) >> o.seed_bits:
+        bad = int(seeds[np.flatnonzero(seeds >> np.uint64(o.seed_bits))[0]])
+        raise InputError(f"seed {bad} does not fit in {o.seed_bits} bits", "--seeds",
+                         f"give seeds below 2**{o.seed_bits} or a larger --seed-bits")
+    if o.lags < 0 or o.early_bytes < 0 or o.merge_budget <= 0:
+        raise InputError("--lags and --early-bytes must be >= 0 and --merge-budget positive", "", "")
+    if o.block < 4 or o.block % 4:
+        raise InputError(f"block size must be a positive multiple of 4, got {o.block}", "", "e.g. 32")
+    P = min(o.early_bytes, B)
+    ks = tuple(sorted(set(int(k) for k in o.interleave)))
+    if any(k < 2 or 4 % k for k in ks):
+        raise InputError(f"interleave widths must be 2 or 4, got {list(ks)}", "--interleave", "e.g. 2,4")
+    sel = lambda key, rid: _row_selected(key, rid, o.checks, o.skip)  # noqa: E731
+    notes: list[str] = []
+
+    per_seed, more = per_seed_plan(B, o.per_seed_checks)
+    per_seed = [pc for pc in per_seed if sel("per-seed", f"per-seed {pc.id}")]
+    notes += more
+    run_x = sel("cross-correlation", f"cross-correlation lags={o.lags}") and S >= 2
+    run_ov = sel("overlaps", "duplicates and overlaps")
+    run_early = sel("early-bytes", f"early bytes positions={P}") and P > 0
+    groups = {k: min(S // k, max(1, o.merge_budget // (k * B))) for k in ks if sel("interleave", f"interleave k={k}")}
+    for k in [k for k, g in groups.items() if g == 0]:
+        notes.append(f"interleave k={k}: needs at least {k} seeds")
+        del groups[k]
+    xor_groups = min(S // 2, max(1, o.merge_budget // B)) if sel("xor-pairs", "xor pairs") else 0
+    n_av = o.avalanche_seeds
+    if n_av is None:
+        n_av = DEFAULT_AVALANCHE_SEEDS_COMMAND if factory.kind == "command" else DEFAULT_AVALANCHE_SEEDS
+    run_av = sel("avalanche", f"avalanche seed-bits={o.seed_bits} output-bits={8 * AVALANCHE_BYTES}") and n_av > 0
+    if S < 2:
+        notes.append("cross-correlation, interleave and xor pairs need at least 2 seeds")
+    spacing = _spacing(B)
+    cfg = _Cfg(B, per_seed, P if run_early else 0, o.lags if run_x else -1, spacing, 4 * (B // spacing) + 16,
+               run_ov, groups, xor_groups)
+    anything = per_seed or run_x or run_ov or run_early or groups or xor_groups or run_av
+    if not anything:
+        raise InputError("no seed check selected", "--checks/--skip",
+                         f"choose among {', '.join(ROW_KEYS)} (or full identifiers)")
+
+    # the factory must work before any pool starts: one clear error line otherwise
+    factory.stream(int(seeds[0]), min(B, 64))
+
+    edges = None
+    if run_av:
+        bases = seeds[: min(n_av, S)]
+        a, b, bit, dropped = M.avalanche_edges(bases, o.seed_bits)
+        edges = (a, b, bit, dropped, len(bases))
+
+    nblocks = -(-S // o.block)
+    blocks: list[_Block | None] = [None] * nblocks
+    av_parts: list[tuple[int, np.ndarray]] = []  # (first edge index, distances)
+    lost: list[str] = []
+    interrupted = False
+    failure: TaskFailure | None = None
+    sub_results: dict[str, Any] = {}
+
+    def collect(f: Any) -> Any:
+        try:
+            return f.result()
+        except cf.process.BrokenProcessPool as e:  # a lost worker: the task's seeds are missing
+            lost.append(str(e))
+            return None
+
+    with SweepRunner(factory, workers, cluster, client) as runner:
+        futs = []
+        for i in range(nblocks):
+            lo, hi = i * o.block, min(S, (i + 1) * o.block)
+            halo = int(seeds[hi]) if (run_x and hi < S) else None
+            futs.append(runner.submit(_block_task, seeds[lo:hi], lo, halo, cfg))
+        av_futs = []
+        if edges is not None:
+            a, b = edges[0], edges[1]
+            step = 16 * o.seed_bits  # about 16 base seeds per task
+            for j in range(0, a.size, step):
+                av_futs.append((j, runner.submit(_avalanche_task, a[j : j + step], b[j : j + step], AVALANCHE_BYTES)))
+        try:
+            done_seeds = 0
+            for i, f in enumerate(futs):
+                r = collect(f)
+                if isinstance(r, TaskFailure):
+                    failure = r
+                    break
+                if r is not None:
+                    blocks[i] = r
+                    done_seeds += r.n
+                if progress:
+                    progress(f"seeds {done_seeds}/{S} (block {i + 1}/{nblocks})")
+            if failure is None:
+                for j, f in av_futs:
+                    r = collect(f)
+                    if isinstance(r, TaskFailure):
+                        failure = r
+                        break
+                    if r is not None:
+                        av_parts.append((j, r))
+                if progress and av_futs:
+                    progress("avalanche done")
+        except KeyboardInterrupt:
+            interrupted = True
+        if failure is not None:
+            for f in futs + [f for _, f in av_futs]:
+                f.cancel()
+            raise failure.error()
+        # batteries on the merged streams (from the groups that finished)
+        if lost and runner.mode == "local":
+            notes.append("batteries on merged streams not run: the local worker pool broke")
+        elif not interrupted:
+            merged_inputs: list[tuple[str, np.ndarray]] = []
+            for k in groups:
+                parts = [bl.merged[k] for bl in blocks if bl is not None and k in bl.merged]
+                if parts:
+                    merged_inputs.append((f"interleave k={k}", np.concatenate(parts)))
+            if xor_groups:
+                parts = [bl.xor for bl in blocks if bl is not None and bl.xor is not None]
+                if parts:
+                    merged_inputs.append(("xor pairs", np.concatenate(parts)))
+            try:
+                for rid, arr in merged_inputs:
+                    if progress:
+                        progress(f"battery on {rid} ({format_size(arr.size)})")
+                    res = _sub_battery(arr, rid, runner.battery_executor, notes)
+                    sub_results[rid] = res
+                    if res is not None and res.get("incomplete"):
+                        lost.append(res["incomplete"])
+            except KeyboardInterrupt:
+                interrupted = True
+        executor_name = runner.describe()
+        workers_used = runner.workers if runner.mode != "dask" else (runner._dask.workers if runner._dask else None)
+
+    incomplete_reason = "interrupted" if interrupted else (f"a worker was lost ({lost[0]})" if lost else None)
+    finished = [bl for bl in blocks if bl is not None]
+    if incomplete_reason is not None:
+        missing = S - sum(bl.n for bl in finished)
+        what = f"{missing} of {S} seeds did not finish" if missing else "some tasks did not finish"
+        if edges is not None and len(av_parts) < len(av_futs):
+            what += f"; {len(av_futs) - len(av_parts)} of {len(av_futs)} avalanche tasks did not finish"
+        notes.append(f"incomplete run: {incomplete_reason}; {what}; the verdict covers only what finished")
+    rows: list[CheckReport] = []
+    plan_rows: list[dict[str, Any]] = []
+    registry = load_all()
+    idx_seeds = np.concatenate([np.arange(bl.start, bl.start + bl.n) for bl in finished]) if finished else np.empty(0, int)
+    Sd = int(idx_seeds.size)
+
+    # 1. per-seed checks, second level across seeds
+    for j, pc in enumerate(per_seed):
+        outcome = Outcome(pc, [], [], 0, 0.0)
+        for bl in finished:
+            for s_i, (res, err) in enumerate(bl.per_seed[j]):
+                outcome.results.append(res)
+                if err:
+                    outcome.errors.append(f"seed {int(seeds[bl.start + s_i])}: {err}")
+            outcome.seconds += bl.seconds[j]
+        outcome.bytes = pc.bytes * len(outcome.results)
+        rid = f"per-seed {pc.id}"
+        spec = registry[pc.key]
+        plan_rows.append(_plan_row(rid, "per-seed", pc.params, pc.view, pc.bytes * S, S))
+        if not outcome.results:
+            continue
+        rr = G.second_level(outcome)
+        coarse = _coarse(rr.replicate_p) if rr is not None else None
+        if coarse is not None:
+            # p-values on a coarse lattice: no uniformity test (it would flag the lattice, not the streams)
+            outcome.results = [None if rs is None else [dataclasses.replace(r, kind="discrete") for r in rs]
+                               for rs in outcome.results]
+            rr = G.second_level(outcome)
+        if rr is None:
+            if outcome.errors:
+                rows.append(_row(rid, "per-seed", pc.params, pc.view, spec.kind, None, 1.0, outcome.bytes, 0, {},
+                                 "", spec.title, error=outcome.errors[0]))
+            continue
+        sl = dict(rr.second_level)
+        sl["across"] = f"{rr.replicates} seeds (each seed's stream is one replicate)"
+        if coarse is not None:
+            sl["uniformity_left_out"] = coarse
+        if outcome.errors:
+            sl["errors"] = outcome.errors[:5]
+        rows.append(_row(rid, "per-seed", pc.params, pc.view, spec.kind, rr.statistic, rr.p_value, outcome.bytes,
+                         rr.replicates, sl, rr.null, f"{spec.title}, per seed; second level across seeds",
+                         replicate_p=rr.replicate_p, seconds=outcome.seconds))
+
+    # 2./3. merged streams
+    for rid, res in sub_results.items():
+        key = "xor-pairs" if rid.startswith("xor") else "interleave"
+        params = {"k": int(rid.split("=")[1])} if key == "interleave" else {"pairs": xor_groups}
+        if key == "interleave":
+            params["groups"] = groups[params["k"]]
+        plan_rows.append(_plan_row(rid, key, params, "bytes", res["bytes"] if res else 0, 1))
+        if res is None:
+            continue
+        title = ("streams of adjacent seeds merged word by word (8-byte words), then the battery"
+                 if key == "interleave" else "XOR of the streams of seed pairs, then the battery")
+        rows.append(_row(rid, key, params, "bytes", "continuous", None, res["p_value"], res["bytes"],
+                         res["segments"], res["details"], "the battery's checks (Bonferroni minimum)", title))
+
+    # 3. cross-correlation
+    if run_x:
+        rid = f"cross-correlation lags={o.lags}"
+        zs, pairs = [], []
+        for bl in finished:
+            zs.append(bl.z)
+            npairs = bl.z.shape[0]
+            pairs.append(np.stack([seeds[bl.start : bl.start + npairs], seeds[bl.start + 1 : bl.start + 1 + npairs]],
+                                  axis=1))
+        z = np.concatenate(zs) if zs else np.empty((0, 2 * o.lags + 1))
+        pr = np.concatenate(pairs) if pairs else np.empty((0, 2), np.uint64)
+        m = M.cross_correlation(z, o.lags, pr)
+        plan_rows.append(_plan_row(rid, "cross-correlation", {"lags": o.lags, "pairs": "adjacent"}, "uniforms",
+                                   S * B, max(S - 1, 0)))
+        if m is not None:
+            rows.append(_row(rid, "cross-correlation", {"lags": o.lags, "pairs": "adjacent"}, "uniforms", m["kind"],
+                             m["statistic"], m["p_value"], 2 * B * z.shape[0], z.shape[0], m["details"], m["null"],
+                             "lagged correlation between the uniforms of adjacent seeds' streams"))
+
+    # 4. avalanche
+    av_bytes = 0
+    if edges is not None:
+        a, b, bit, dropped, nbases = edges
+        rid = f"avalanche seed-bits={o.seed_bits} output-bits={8 * AVALANCHE_BYTES}"
+        params = {"seeds": nbases, "seed_bits": o.seed_bits, "output_bits": 8 * AVALANCHE_BYTES}
+        if av_parts:
+            d = np.concatenate([p for _, p in av_parts])
+            take = np.concatenate([np.arange(j, j + p.size) for j, p in av_parts])
+            m = M.avalanche(d, bit[take], 8 * AVALANCHE_BYTES, o.seed_bits)
+            if m is not None:
+                av_bytes = int(np.unique(np.concatenate([a[take], b[take]])).size) * AVALANCHE_BYTES
+                m["details"]["pairs_dropped"] = int(dropped)
+                m["details"]["pairs_dropped_why"] = "repeated pairs and pairs closing a cycle (kept pairs form a forest)"
+                rows.append(_row(rid, "avalanche", params, "bits", m["kind"], m["statistic"], m["p_value"], av_bytes,
+                                 int(d.size), m["details"], m["null"],
+                                 "seed avalanche: output bits changed by flipping one seed bit"))
+        plan_rows.append(_plan_row(rid, "avalanche", params, "bits", int(a.size) * 2 * AVALANCHE_BYTES, int(a.size)))
+
+    # 5. duplicates and overlaps
+    if run_ov:
+        rid = "duplicates and overlaps"
+        params = {"window_bytes": 16, "window_spacing": spacing}
+        plan_rows.append(_plan_row(rid, "overlaps", params, "bytes", S * B, S))
+        if finished:
+            dig = np.concatenate([bl.digests for bl in finished])
+            an = [np.concatenate([bl.anchors[i] for bl in finished]) for i in range(4)]
+            # anchors carry global seed indices; map them to positions among the finished seeds
+            pos_of = np.full(S, -1, dtype=np.int64)
+            pos_of[idx_seeds] = np.arange(Sd)
+            m = M.overlaps(seeds[idx_seeds], dig, pos_of[an[0]], an[1], an[2], an[3], spacing, B)
+            m["details"]["found_with_probability_0.999"] = (
+                f"overlaps of at least {M.overlap_detection_length(spacing)} bytes (about)")
+            rows.append(_row(rid, "overlaps", params, "bytes", m["kind"], m["statistic"], m["p_value"], Sd * B, Sd,
+                             m["details"], m["null"], "identical streams and streams that are shifted copies"))
+
+    # 6. early outputs
+    if run_early:
+        rid = f"early bytes positions={P}"
+        params = {"positions": P}
+        plan_rows.append(_plan_row(rid, "early-bytes", params, "bytes", S * P, S))
+        if finished:
+            m = M.early_bytes(np.concatenate([bl.early for bl in finished]))
+            if m is None:
+                notes.append("early bytes: needs at least 10 seeds")
+            else:
+                params = {"positions": P, "cells": m["details"]["cells"]}
+                rows.append(_row(rid, "early-bytes", params, "bytes", m["kind"], m["statistic"], m["p_value"], Sd * P,
+                                 Sd, m["details"], m["null"], "distribution of each early output byte across seeds"))
+
+    # grading: Holm over every row, as for `test`
+    graded = [c for c in rows if c.error is None]
+    grades, adj = G.holm_grades([c.p_value for c in graded], alpha)
+    for c, g, a_ in zip(graded, grades, adj):
+        c.grade, c.adjusted_p = g, a_
+    order = {p["id"]: i for i, p in enumerate(plan_rows)}
+    rows.sort(key=lambda c: order.get(c.id, 10**9))
+    # the evidence: SHA-256 over the per-seed SHA-256 digests, in seed order
+    all_dig = np.concatenate([bl.digests for bl in finished]) if finished else np.empty((0, 32), np.uint8)
+    sha = hashlib.sha256(all_dig.tobytes()).hexdigest()
+    source = {
+        "kind": "seeds", "name": factory.describe(), "format": "u1", "bytes_read": Sd * B + av_bytes,
+        "sha256": sha,
+        "sha256_of": "the SHA-256 digests of every seed's stream, concatenated in seed order",
+        "seeds": S, "seed_spec": seed_spec or f"{S} seeds", "first_seed": int(seeds[0]), "last_seed": int(seeds[-1]),
+        "bytes_per_seed": B,
+    }
+    settings = {
+        "executor": executor_name, "workers_used": workers_used, "block_seeds": o.block, "lags": o.lags,
+        "interleave": list(ks), "merge_budget": o.merge_budget, "avalanche_seeds": int(n_av),
+        "seed_bits": o.seed_bits, "avalanche_output_bits": 8 * AVALANCHE_BYTES, "early_bytes": P,
+        "window_spacing": spacing, "per_seed_checks": [pc.id for pc in per_seed],
+        "borderline_factor": G.BORDERLINE_FACTOR,
+    }
+    return Report(
+        command="seeds",
+        source=source,
+        budget_bytes=S * B,
+        alpha=alpha,
+        verdict=G.run_verdict([c.grade for c in rows]),
+        combined_p=G.combined_p([c.p_value for c in rows if c.error is None]),
+        checks=rows,
+        incomplete=incomplete_reason is not None,
+        elapsed_s=time.perf_counter() - t0,
+        plan=plan_rows,
+        settings=settings,
+        notes=notes,
+    )
+
+
+def _coarse(ps: list[float]) -> str | None:
+    """Why a uniformity test across seeds would be unsound here (p-values on a coarse lattice), or None.
+
+    Continuous p-values of S seeds leave gaps of about ln(S)/S (the largest exceeds 3 ln(S)/S with
+    probability about 1/S^2); a discrete statistic leaves gaps of its lattice. When the largest gap between
+    distinct p-values (0 and 1 included) exceeds max(0.25/sqrt(S), 3 ln(S)/S), the lattice alone could
+    move a uniformity statistic over S seeds, so the second level keeps only the tests valid for discrete
+    p-values (smallest p-value, Sidak; pooled counts where the check has them).
+    """
+    S = len(ps)
+    if S < 20:
+        return None
+    u = np.unique(np.asarray(ps, dtype=float))
+    gap = float(np.diff(np.concatenate([[0.0], u, [1.0]])).max())
+    limit = max(0.25 / math.sqrt(S), 3.0 * math.log(S) / S)
+    if gap > limit:
+        return (f"p-values take {u.size} distinct values (largest gap {gap:.3g} > {limit:.3g}): "
+                "uniformity and proportion tests left out")
+    return None
+
+
+def _plan_row(rid: str, key: str, params: dict, view: str, nbytes: int, reps: int) -> dict[str, Any]:
+    return {"id": rid, "key": key, "family": FAMILY, "view": view, "params": dict(params), "bytes": int(nbytes),
+            "replicates": int(reps)}
+
+
+def _row(rid: str, key: str, params: dict, view: str, kind: str, statistic: float | None, p: float, nbytes: int,
+         reps: int, second_level: dict, null: str, title: str, error: str | None = None,
+         replicate_p: list[float] | None = None, seconds: float = 0.0) -> CheckReport:
+    rnd = [] if error else [Round(replicates=reps, bytes=int(nbytes), p_value=float(p),
+                                  replicate_p=list(replicate_p or []), statistic=statistic,
+                                  second_level=second_level)]
+    return CheckReport(id=rid, key=key, family=FAMILY, params=dict(params), view=view, kind=kind,
+                       statistic=None if statistic is None else float(statistic), p_value=float(p),
+                       grade="fail" if error else "pass", bytes=int(nbytes), replicates=int(reps), adjusted_p=None,
+                       second_level=second_level, rounds=rnd, null=null, title=title, error=error,
+                       seconds=round(seconds, 4))
+
+
+def _sub_battery(arr: np.ndarray, rid: str, executor: Any, notes: list[str]) -> dict[str, Any] | None:
+    """The battery on a merged stream: one p-value (Bonferroni minimum over its checks) and the worst checks."""
+    try:
+        plan = make_plan(_U1, int(arr.size), shared=True)
+    except InputError:
+        notes.append(f"{rid}: {arr.size} bytes are too few for the battery")
+        return None
+    stream = Stream(_BytesSource(rid, arr), _U1)
+    outcomes, complete, reason = run_plan(stream, plan, executor)
+    found = []
+    errors = []
+    for oc in outcomes:
+        rr = G.second_level(oc)
+        if rr is not None:
+            found.append((oc.check.id, rr.p_value))
+        elif oc.errors:
+            errors.append(f"{oc.check.id}: {oc.errors[0]}")
+    if not found:
+        notes.append(f"{rid}: no battery check finished")
+        return None
+    ps = [p for _, p in found]
+    worst = sorted(found, key=lambda t: t[1])[:5]
+    details = {
+        "method": f"Bonferroni minimum over the battery's {len(found)} checks (the smallest Holm-adjusted p)",
+        "battery_checks": len(found), "segments": plan.segments, "merged_bytes": int(arr.size),
+        "worst_checks": [{"id": i, "p_value": float(p)} for i, p in worst],
+    }
+    if errors:
+        details["errors"] = errors[:5]
+    out = {"p_value": M.bonferroni(ps), "bytes": int(arr.size), "segments": plan.segments, "details": details}
+    if not complete:
+        out["incomplete"] = f"{rid}: {reason}"
+    return out
+
+
+def sweep_seeds(
+    seeds: str | Any = None,
+    *,
+    seed_set: str | None = None,
+    python: str | None = None,
+    command: str | None = None,
+    shell: bool = False,
+    gen: str | None = None,
+    factory: Callable[[int], Any] | None = None,
+    bytes_per_seed: str | int = DEFAULT_BYTES_PER_SEED,
+    checks: list[str] | None = None,
+    skip: list[str] | None = None,
+    per_seed_checks: list[str] | None = None,
+    lags: int = DEFAULT_LAGS,
+    interleave: tuple[int, ...] = (2, 4),
+    merge_budget: str | int = DEFAULT_MERGE_BUDGET,
+    avalanche_seeds: int | None = None,
+    seed_bits: int = 64,
+    early_bytes: int = DEFAULT_EARLY_BYTES,
+    alpha: float = G.DEFAULT_ALPHA,
+    workers: int | None = 1,
+    cluster: str | None = None,
+    client: Any = None,
+    progress: Callable[[str], None] | None = None,
+) -> Report:
+    """The seed sweep from CLI-style arguments (what ``rngassay seeds`` calls).
+
+    ``seeds``: ``"0..999"``, ``"1,5,9"``, ``"@FILE"`` or a sequence of ints; or ``seed_set`` (``"consecutive:N"``,
+    ``"powers-of-two"``, ``"low-weight"``, ``"all-ones"``). The factory: ``python="FILE.py:NAME"``,
+    ``command="prog --seed {seed}"``, ``gen="NAME"`` or ``factory=callable(seed)``. Sizes take IEC suffixes.
+    """
+    from ..sizes import parse_size
+    from .seedsets import resolve_seeds
+
+    f = SeedFactory.from_options(python=python, command=command, gen=gen, shell=shell, factory=factory)
+    if seeds is not None and not isinstance(seeds, str):
+        if seed_set is not None:
+            raise InputError("both --seeds and --seed-set given", "", "give one of them")
+        arr = np.asarray(list(seeds) if not isinstance(seeds, np.ndarray) else seeds)
+        if arr.size == 0:
+            raise InputError("empty seed set", "seeds", "give at least one seed")
+        if arr.dtype.kind not in "ui" or (arr.dtype.kind == "i" and (arr < 0).any()):
+            raise InputError("seeds must be non-negative integers", "seeds", "give integers in [0, 2**64 - 1]")
+        from .seedsets import _finish
+
+        arr = _finish(arr.astype(np.uint64), "seeds")
+        spec = f"{arr.size} seeds"
+    else:
+        arr = resolve_seeds(seeds, seed_set)
+        spec = f"--seeds {seeds}" if seeds is not None else f"--seed-set {seed_set}"
+    opts = SweepOptions(
+        bytes_per_seed=parse_size(bytes_per_seed, "--bytes-per-seed"), per_seed_checks=per_seed_checks, lags=lags,
+        interleave=tuple(interleave), merge_budget=parse_size(merge_budget, "--merge-budget"),
+        avalanche_seeds=avalanche_seeds, seed_bits=seed_bits, early_bytes=early_bytes, checks=checks, skip=skip,
+    )
+    return run_sweep(arr, f, options=opts, alpha=alpha, workers=workers, cluster=cluster, client=client,
+                     progress=progress, seed_spec=spec)
