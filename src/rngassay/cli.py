@@ -202,14 +202,19 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
     if plan_only:
         click.echo(result.describe())
         raise click.exceptions.Exit(EXIT_OK)
-    report = result
+    finish(result, outputs, strict)
+
+
+def finish(report, outputs: list[tuple[str, str]], strict: bool) -> None:
+    """Write the reports, print the table and exit: 0 pass (and borderline unless strict), 1 fail or an
+    incomplete run, 130 interrupted. Shared by `test`, `fit` and `seeds`."""
     _write_outputs(report, outputs)
     click.echo(report.to_text(color=sys.stdout.isatty()))
     for what, path in outputs:
         click.echo(f"{what:<12} {path}")
     code = report.exit_code(strict=strict)
     if report.incomplete:
-        code = max(code, EXIT_FAIL) if not any("interrupted" in n for n in report.notes) else 130
+        code = 130 if any("interrupted" in n for n in report.notes) else max(code, EXIT_FAIL)
     raise click.exceptions.Exit(code)
 
 

@@ -1107,7 +1107,7 @@ def register_cli(cli_group) -> None:
 
     import click
 
-    from .cli import Progress, _check_outputs, _check_source_given, _report_options, _split, _write_outputs
+    from .cli import Progress, _check_outputs, _check_source_given, _report_options, _split, finish
 
     @cli_group.command("fit")
     @click.argument("source", required=False)
@@ -1146,8 +1146,4 @@ def register_cli(cli_group) -> None:
                          workers=workers or (os.cpu_count() or 1), pit_seed=pit_seed, progress=progress)
         finally:
             progress.done()
-        _write_outputs(report, outputs)
-        click.echo(report.to_text(color=sys.stdout.isatty()))
-        for what, path in outputs:
-            click.echo(f"{what:<12} {path}")
-        raise click.exceptions.Exit(report.exit_code(strict=strict))
+        finish(report, outputs, strict)

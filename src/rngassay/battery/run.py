@@ -63,24 +63,23 @@ class ViewCache:
         return self._cache[key]
 
 
-def call_check(pc: PlannedCheck, cache: ViewCache) -> list[CheckResult]:
-    """Run one planned check on one segment's views; always returns a list of results."""
-    spec = load_all()[pc.key]
+def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[CheckResult]:
+    """Run one planned check on one segment's views; always returns a list of results.
+
+    ``spec`` is the registry entry (looked up when not given)."""
+    spec = spec if spec is not None else load_all()[pc.key]
     params = dict(pc.params)
     need = pc.values
     if pc.view == "bits":
         packed, nbits = cache.get("bits")
-        nb = min(nbits, need)
-        res = spec.func(packed[: -(-nb // 8)], **params)
+        res = spec.func(packed[: -(-min(nbits, need) // 8)], **params)
     elif pc.view == "integers":
         x, k = cache.get("integers", params.get("k"))
         params["k"] = k
         res = spec.func(x[:need], **params)
     else:
         res = spec.func(cache.get(pc.view)[:need], **params)
-    if isinstance(res, CheckResult):
-        return [res]
-    return list(res)
+    return [res] if isinstance(res, CheckResult) else list(res)
 
 
 def _run_segment_task(vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]) -> list[tuple[list[CheckResult] | None, str | None, float]]:

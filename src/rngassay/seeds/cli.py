@@ -31,7 +31,7 @@ def register_cli(group: click.Group) -> click.Command:
     """Add the ``seeds`` command to ``group`` (once) and return it."""
     if "seeds" in group.commands:
         return group.commands["seeds"]
-    from ..cli import EXIT_FAIL, EXIT_OK, Progress, _check_outputs, _report_options, _split, _write_outputs
+    from ..cli import Progress, _check_outputs, _report_options, _split, finish
 
     sets = "; ".join(f"{k}: {v}" for k, v in SEED_SETS.items())
 
@@ -110,13 +110,6 @@ def register_cli(group: click.Group) -> click.Command:
             )
         finally:
             progress.done()
-        _write_outputs(report, outputs)
-        click.echo(report.to_text(color=sys.stdout.isatty()))
-        for what, path in outputs:
-            click.echo(f"{what:<12} {path}")
-        code = report.exit_code(strict=strict)
-        if report.incomplete:
-            code = 130 if any("interrupted" in n for n in report.notes) else max(code, EXIT_FAIL)
-        raise click.exceptions.Exit(code if code is not None else EXIT_OK)
+        finish(report, outputs, strict)
 
     return seeds_cmd

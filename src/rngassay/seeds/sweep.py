@@ -45,7 +45,7 @@ import numpy as np
 
 from ..battery import grade as G
 from ..battery.plan import PlannedCheck, make_plan
-from ..battery.run import Outcome, ViewCache, run_plan
+from ..battery.run import Outcome, ViewCache, call_check, run_plan
 from ..checks.result import CheckResult
 from ..checks.registry import load_all
 from ..errors import InputError
@@ -142,7 +142,7 @@ def _block_task(factory: SeedFactory, seeds: np.ndarray, start: int, halo: int |
             for j, (pc, spec) in enumerate(zip(cfg.per_seed, specs)):
                 t = time.perf_counter()
                 try:
-                    res = _call_check(pc, spec, cache)
+                    res = call_check(pc, cache, spec)
                     per[j].append(([dataclasses.replace(r, details={}) for r in res], None))  # what grading needs
                 except Exception as e:  # one broken check must not take the others down
                     per[j].append((None, f"{type(e).__name__}: {e}"))
@@ -173,22 +173,6 @@ def _block_task(factory: SeedFactory, seeds: np.ndarray, start: int, halo: int |
         xor = np.bitwise_xor(a, b).reshape(-1)
     early = mat[:, : cfg.early].copy()
     return _Block(start, n, dig, early, anchors, per, secs, z, merged, xor)
-
-
-def _call_check(pc: PlannedCheck, spec: Any, cache: ViewCache) -> list[CheckResult]:
-    """:func:`rngassay.battery.run.call_check` with the registry entry passed in (same views, same data)."""
-    params = dict(pc.params)
-    need = pc.values
-    if pc.view == "bits":
-        packed, nbits = cache.get("bits")
-        res = spec.func(packed[: -(-min(nbits, need) // 8)], **params)
-    elif pc.view == "integers":
-        x, k = cache.get("integers", params.get("k"))
-        params["k"] = k
-        res = spec.func(x[:need], **params)
-    else:
-        res = spec.func(cache.get(pc.view)[:need], **params)
-    return [res] if isinstance(res, CheckResult) else list(res)
 
 
 def _avalanche_task(factory: SeedFactory, a: np.ndarray, b: np.ndarray, nbytes: int) -> np.ndarray:
