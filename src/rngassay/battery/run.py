@@ -35,16 +35,23 @@ class Outcome:
 
 
 class ViewCache:
-    """Views of one segment, made once and shared by the checks that run on it."""
+    """Views of one segment, made once and shared by the checks that run on it.
 
-    def __init__(self, vals: np.ndarray, fmt: Format):
+    ``limits`` maps a view to the number of input values the checks need of it (the largest need among
+    them): the view is made of that prefix only, since capped checks read just the start of a segment.
+    """
+
+    def __init__(self, vals: np.ndarray, fmt: Format, limits: dict[str, int] | None = None):
         self.vals, self.fmt = vals, fmt
+        self.limits = limits or {}
         self._cache: dict[Any, Any] = {}
 
     def get(self, view: str, k: int | None = None) -> Any:
         key = (view, k)
         if key not in self._cache:
             f, v = self.fmt, self.vals
+            if view in self.limits:
+                v = v[: self.limits[view]]
             if view == "bytes":
                 out = views.as_bytes(v, f)
             elif view == "words32":
@@ -82,8 +89,23 @@ def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[Che
     return [res] if isinstance(res, CheckResult) else list(res)
 
 
+def view_limits(fmt: Format, checks: list[PlannedCheck]) -> dict[str, int]:
+    """Input values each view must cover for these checks (binary formats; integers keep the whole
+    segment because rejection sampling drops a data-dependent number of words)."""
+    if not fmt.is_binary:
+        return {}
+    out: dict[str, int] = {}
+    for pc in checks:
+        if pc.view == "integers":
+            continue
+        n = -(-pc.bytes // fmt.itemsize)
+        n += (-n) % max(1, 8 // fmt.itemsize)  # whole 64-bit words for the word views
+        out[pc.view] = max(out.get(pc.view, 0), n)
+    return out
+
+
 def _run_segment_task(vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]) -> list[tuple[list[CheckResult] | None, str | None, float]]:
-    cache = ViewCache(vals, fmt)
+    cache = ViewCache(vals, fmt, view_limits(fmt, checks))
     out = []
     for pc in checks:
         t = time.perf_counter()

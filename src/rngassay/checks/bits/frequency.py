@@ -248,7 +248,6 @@ register(CheckSpec(
     key="block frequency", family="bits", title="frequency test within a block", view="bits",
     kind="continuous", func=block_frequency, values_needed=_n,
     default_params=_block_frequency_defaults, source=f"{SP800_22} §2.2",
-    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
 ))
 
 register(CheckSpec(
