@@ -40,24 +40,40 @@ def _source_options(f):
 
 
 class Progress:
-    """A one-line progress indicator on stderr, shown only on a terminal and unless --quiet."""
+    """A progress bar on stderr, shown only on a terminal, unless --quiet, and only once a run has taken
+    more than ``delay`` seconds (short runs stay silent)."""
 
-    def __init__(self, quiet: bool):
+    def __init__(self, quiet: bool, delay: float = 2.0):
+        import time
+
         self.on = (not quiet) and sys.stderr.isatty()
         self._last = ""
+        self._t0 = time.monotonic()
+        self._delay = delay
 
     def __call__(self, text: str) -> None:
-        if self.on:
-            line = f"\r{text[:100]:<100}"
-            if line != self._last:
-                sys.stderr.write(line)
-                sys.stderr.flush()
-                self._last = line
+        import re
+        import time
+
+        if not self.on or time.monotonic() - self._t0 < self._delay:
+            return
+        m = re.search(r"(\d+)/(\d+)", text)
+        if m and int(m.group(2)) > 0:
+            done, total = int(m.group(1)), int(m.group(2))
+            width = 24
+            fill = round(width * min(done, total) / total)
+            text = f"[{'#' * fill}{'.' * (width - fill)}] {text}"
+        line = f"\r{text[:100]:<100}"
+        if line != self._last:
+            sys.stderr.write(line)
+            sys.stderr.flush()
+            self._last = line
 
     def done(self) -> None:
         if self.on and self._last:
             sys.stderr.write("\r" + " " * 100 + "\r")
             sys.stderr.flush()
+            self._last = ""
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})

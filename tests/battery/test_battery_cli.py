@@ -81,3 +81,21 @@ def test_demo_writes_reports(run_cli, tmp_path):
 def test_unknown_selectors_are_refused(run_cli, sound_file, args):
     r = run_cli("test", sound_file, "--plan-only", *args)
     assert r.code == 2 and len(r.err.strip().splitlines()) == 1
+
+
+def test_progress_bar_only_on_a_terminal_and_after_a_delay(capsys, monkeypatch):
+    import sys
+
+    from rngassay.cli import Progress
+
+    p = Progress(quiet=False)
+    assert not p.on  # pytest's stderr is not a terminal: nothing is ever drawn
+    monkeypatch.setattr(sys.stderr, "isatty", lambda: True, raising=False)
+    assert not Progress(quiet=True).on
+    slow = Progress(quiet=False, delay=3600)
+    slow("segment 1/4")  # within the delay: silent
+    fast = Progress(quiet=False, delay=0)
+    fast("segment 2/4: 70 checks")
+    fast.done()
+    err = capsys.readouterr().err
+    assert "[############............] segment 2/4" in err and err.count("segment") == 1
