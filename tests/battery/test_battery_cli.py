@@ -99,3 +99,9 @@ def test_progress_bar_only_on_a_terminal_and_after_a_delay(capsys, monkeypatch):
     fast.done()
     err = capsys.readouterr().err
     assert "[############............] segment 2/4" in err and err.count("segment") == 1
+
+
+def test_terminal_report_carries_the_cautions(run_cli, sound_file):
+    r = run_cli("test", sound_file, "--workers", "1", "--checks", "byte frequency", "-q")
+    assert "cannot prove unpredictability" in r.out
+    assert "accredited test laboratories" in r.out

@@ -48,5 +48,6 @@ def render(report: Report, color: bool = False, limit: int | None = None) -> str
     for n in report.notes:
         if not n.startswith("left out"):
             lines.append(f"note         {n}")
-    lines.append("caution      a pass is evidence at this sample size, not proof of unpredictability; see the README")
+    for c in report.cautions:
+        lines.append(f"caution      {c}")
     return "\n".join(lines)
