@@ -69,6 +69,11 @@ def main() -> None:
     print("| verdict | runs | share |\n|---|---|---|")
     for v, k in (("fail", fails), ("borderline", borders), ("pass", n - fails - borders)):
         print(f"| {v} | {k} | {k / n:.4f} |")
+    for r in results:
+        if r["verdict"] != "pass":
+            worst = sorted(r["checks"].items(), key=lambda kv: kv[1]["p"])[:3]
+            print(f"\n- seed {r['seed']}: {r['verdict']}; lowest check p-values: "
+                  + "; ".join(f"{cid} {c['p']:.3g} ({c['grade']})" for cid, c in worst))
     print(f"\nExact binomial test of {fails} fails in {n} runs against the promised rate {a.alpha} "
           f"(one-sided, more fails than promised): p = {binom.pvalue:.3g}. "
           + ("Consistent with alpha." if binom.pvalue > 0.01 else "NOT consistent with alpha."))
