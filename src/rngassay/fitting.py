@@ -782,6 +782,38 @@ def continuous_pit(log_f: np.ndarray, log_s: np.ndarray) -> np.ndarray:
     return u
 
 
+def decimal_grid(x: np.ndarray, max_decimals: int = 8) -> int | None:
+    """The number of decimals d (0..max_decimals) such that every value is a multiple of 10^-d (within
+    float rounding), or None when the values are not on such a grid (full-precision data)."""
+    if x.size == 0 or not np.all(np.isfinite(x)):
+        return None
+    for d in range(max_decimals + 1):
+        y = x * 10.0**d
+        tol = 1e-6 + 8 * np.finfo(float).eps * np.abs(y)
+        if np.all(np.abs(y - np.rint(y)) <= tol):
+            return d
+    return None
+
+
+def interval_pit(frozen, x: np.ndarray, decimals: int, seed: int) -> np.ndarray:
+    """Randomised PIT for values rounded to ``decimals`` decimals: the true value lies in the cell
+    [x - h/2, x + h/2), h = 10^-decimals, so u = F(lo) + V (F(hi) - F(lo)) with V ~ U[0, 1) from numpy's
+    PCG64 seeded with ``seed``. Under H0 (a continuous variate from the declared law, then rounded) u is
+    exactly U(0, 1) -- the randomised PIT of the discretised variable (common practice)."""
+    h = 10.0 ** -decimals
+    lf_lo, ls_lo = tail_log_areas(frozen, x - h / 2)
+    lf_hi, ls_hi = tail_log_areas(frozen, x + h / 2)
+    with np.errstate(all="ignore"):
+        lower = lf_hi <= math.log(0.5)
+        f_lo = np.where(lower, np.exp(lf_lo), -np.expm1(ls_lo))
+        width = np.where(lower, np.exp(lf_hi) - np.exp(lf_lo), np.exp(ls_lo) - np.exp(ls_hi))
+    v = np.random.Generator(np.random.PCG64(seed)).random(x.size)
+    u = np.nan_to_num(f_lo + v * np.maximum(width, 0.0), nan=0.0)
+    np.minimum(u, np.nextafter(1.0, 0.0), out=u)
+    np.maximum(u, 0.0, out=u)
+    return u
+
+
 def randomised_pit(idx: np.ndarray, cats: Categories, seed: int) -> np.ndarray:
     """u = F(x - 1) + V P(x), V ~ U[0, 1) from numpy's PCG64 seeded with ``seed``: i.i.d. U(0, 1)
     under H0 (randomised probability integral transform; Brockwell 2007, common practice)."""
@@ -979,8 +1011,18 @@ def fit_values(
                 fit_checks.append(tail_count_check(lf, q, "lower"))
                 fit_checks.append(tail_count_check(ls, q, "upper"))
         fit_checks.append(extreme_value_check(lf, ls))
-        u = continuous_pit(lf, ls)
-        settings["pit"] = "probability integral transform u = F(x) (1 - S(x) in the upper half)"
+        decimals = decimal_grid(x)
+        if decimals is not None:
+            # rounded values: a plain PIT would put the uniforms on a grid the battery then detects
+            u = interval_pit(decl.frozen, x, decimals, pit_seed)
+            settings["pit"] = (f"randomised interval PIT for values rounded to {decimals} decimals: "
+                               "u = F(x - h/2) + V (F(x + h/2) - F(x - h/2)), h = 10^-decimals")
+            settings["pit_seed"] = int(pit_seed)
+            notes.append(f"the values lie on a grid of 10^-{decimals}: the PIT battery sees a randomised "
+                         "interval PIT (seed recorded); the fit-specific checks see the values as given")
+        else:
+            u = continuous_pit(lf, ls)
+            settings["pit"] = "probability integral transform u = F(x) (1 - S(x) in the upper half)"
         del lf, ls
     else:
         cats = categories_for(decl)
