@@ -18,6 +18,19 @@ from .errors import InputError
 EXIT_OK, EXIT_FAIL, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
 
 
+def out(text: str = "") -> None:
+    """Print to standard output; a reader that closed the pipe early (``| head``) ends the output quietly,
+    and the command still exits with its own code."""
+    try:
+        click.echo(text)
+    except BrokenPipeError:
+        try:
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+        except (OSError, ValueError):  # pragma: no cover
+            pass
+
+
 def _source_options(f):
     """Options naming the source; shared by commands that read a stream."""
     opts = [
@@ -93,23 +106,23 @@ def catalog() -> None:
     from .generators import GENERATORS
     from .intake.formats import FORMATS
 
-    click.echo("Input formats (--format):")
-    click.echo("  " + "  ".join(FORMATS))
-    click.echo("  text takes floats in [0, 1), or integers with --range LO:HI")
-    click.echo("")
-    click.echo("Built-in generators (--gen NAME, rngassay emit NAME):")
+    out("Input formats (--format):")
+    out("  " + "  ".join(FORMATS))
+    out("  text takes floats in [0, 1), or integers with --range LO:HI")
+    out("")
+    out("Built-in generators (--gen NAME, rngassay emit NAME):")
     width = max(len(n) for n in GENERATORS)
     for name, info in GENERATORS.items():
-        click.echo(f"  {name:<{width}}  {info.quality:<6}  {info.summary}")
+        out(f"  {name:<{width}}  {info.quality:<6}  {info.summary}")
     from .checks.registry import load_all
 
     reg = load_all()
     if reg:
-        click.echo("")
-        click.echo("Checks (family / key / view):")
+        out("")
+        out("Checks (family / key / view):")
         kw = max(len(k) for k in reg)
         for key, spec in sorted(reg.items(), key=lambda kv: (kv[1].family, kv[0])):
-            click.echo(f"  {spec.family:<11} {key:<{kw}}  {spec.view:<9} {spec.title}")
+            out(f"  {spec.family:<11} {key:<{kw}}  {spec.view:<9} {spec.title}")
 
 
 @cli.command()
@@ -211,12 +224,12 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
         if partial is not None:  # bad data mid-run: file what finished, marked incomplete, then the error
             progress.done()
             _write_outputs(partial, outputs)
-            click.echo(partial.to_text(color=sys.stdout.isatty()))
+            out(partial.to_text(color=sys.stdout.isatty()))
         raise
     finally:
         progress.done()
     if plan_only:
-        click.echo(result.describe())
+        out(result.describe())
         raise click.exceptions.Exit(EXIT_OK)
     finish(result, outputs, strict)
 
@@ -225,9 +238,9 @@ def finish(report, outputs: list[tuple[str, str]], strict: bool) -> None:
     """Write the reports, print the table and exit: 0 pass (and borderline unless strict), 1 fail or an
     incomplete run, 130 interrupted. Shared by `test`, `fit` and `seeds`."""
     _write_outputs(report, outputs)
-    click.echo(report.to_text(color=sys.stdout.isatty()))
+    out(report.to_text(color=sys.stdout.isatty()))
     for what, path in outputs:
-        click.echo(f"{what:<12} {path}")
+        out(f"{what:<12} {path}")
     code = report.exit_code(strict=strict)
     if report.incomplete:
         code = 130 if any("interrupted" in n for n in report.notes) else max(code, EXIT_FAIL)
@@ -344,13 +357,13 @@ def demo(budget: str, out_dir: str, workers: int | None, quiet: bool) -> None:
         base = os.path.join(out_dir, f"demo-{slug}")
         outs = [("json report", base + ".json"), ("html report", base + ".html"), ("junit report", base + ".xml")]
         _write_outputs(report, outs)
-        click.echo(f"== {title}  (stand-in: --gen {name} --seed {seed})")
-        click.echo(report.to_text(color=sys.stdout.isatty()))
-        click.echo("")
+        out(f"== {title}  (stand-in: --gen {name} --seed {seed})")
+        out(report.to_text(color=sys.stdout.isatty()))
+        out("")
         written += [p for _, p in outs]
-    click.echo("Reports written:")
+    out("Reports written:")
     for p in written:
-        click.echo(f"  {p}")
+        out(f"  {p}")
 
 
 @cli.command()
@@ -365,7 +378,7 @@ def diff(base: str, new: str, show_all: bool) -> None:
     b = read_report_json(base)
     n = read_report_json(new)
     result = diff_reports(b, n)
-    click.echo(render_diff_text(result, show_same=show_all))
+    out(render_diff_text(result, show_same=show_all))
     raise click.exceptions.Exit(EXIT_FAIL if result.worse else EXIT_OK)
 
 

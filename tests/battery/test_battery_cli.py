@@ -105,3 +105,16 @@ def test_terminal_report_carries_the_cautions(run_cli, sound_file):
     r = run_cli("test", sound_file, "--workers", "1", "--checks", "byte frequency", "-q")
     assert "cannot prove unpredictability" in r.out
     assert "accredited test laboratories" in r.out
+
+
+def test_reader_closing_the_pipe_early_is_quiet():
+    # `rngassay catalog | head -1`: the reader leaves early; no traceback, and the command's own exit code
+    import subprocess
+    import sys
+
+    p = subprocess.Popen([sys.executable, "-m", "rngassay", "catalog"], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    p.stdout.readline()
+    p.stdout.close()
+    err = p.stderr.read().decode()
+    assert p.wait(timeout=60) == 0
+    assert "Traceback" not in err and "Exception ignored" not in err
