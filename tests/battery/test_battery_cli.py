@@ -40,9 +40,10 @@ def test_reports_written_and_exit_codes(run_cli, tmp_path, sound_file, flawed_fi
     assert run_cli("diff", bad, j).code == 0
 
 
-def test_plan_only_reads_nothing(run_cli, sound_file):
+def test_plan_only_prints_the_plan_and_runs_no_check(run_cli, sound_file):
     r = run_cli("test", sound_file, "--plan-only")
     assert r.code == 0 and "plan:" in r.out and "replicates" in r.out
+    assert "verdict" not in r.out and "sha-256" not in r.out  # no check ran, no report
 
 
 def test_report_into_missing_folder_is_refused_before_work(run_cli, tmp_path, sound_file):
