@@ -37,7 +37,15 @@ def open_stream(
     gen: str | None = None,
     seed: int | None = None,
 ) -> Stream:
-    """Open a source and wrap it in a decoded, accounted :class:`Stream`."""
+    """Open a source and wrap it in a decoded, accounted :class:`Stream`.
+
+    A built-in generator whose output is meant to be read in a format of its own (doubles: ``<f8``) is read
+    in that format when ``fmt`` is not given."""
+    if fmt is None and gen is not None and value_range is None:
+        from .generators import GENERATORS
+
+        info = GENERATORS.get(gen)
+        fmt = info.default_format if info is not None else None
     f = parse_format(fmt, value_range)
     if isinstance(source, RawSource):
         raw = source
@@ -100,7 +108,19 @@ def assay(
         if shared:
             if size == 0:
                 raise InputError("empty stream: no bytes to test", stream.source.where, "check the source produces data")
-            if not explicit and size is not None:
+            if not f.is_binary:
+                # text: the budget counts values, and a finite text source is read whole up to it, so
+                # that every value decoded is examined (bytes read and the SHA-256 cover the same values)
+                stream = _buffered(stream, budget_bytes)
+                if explicit and stream.source.values_total < budget_bytes:
+                    raise InputError(
+                        f"stream is shorter than the plan needs ({budget_bytes} values needed, "
+                        f"{stream.source.values_total} available)",
+                        stream.source.where,
+                        "give a smaller --budget (for text it counts values)",
+                    )
+                budget_bytes = stream.source.values_total
+            elif not explicit and size is not None:
                 budget_bytes = min(budget_bytes, size)
                 if f.is_binary and size % f.itemsize and budget_bytes == size:
                     left = size % f.itemsize
@@ -110,40 +130,61 @@ def assay(
                         f"{stream.source.where} byte offset {size - left}",
                         "check --format, or trim the stream to whole values (no data is dropped silently)",
                     )
-            if explicit and size is not None and size < budget_bytes:
+            if f.is_binary and explicit and size is not None and size < budget_bytes:
                 raise InputError(
                     f"stream is shorter than the plan needs ({budget_bytes} bytes needed, {size} available)",
                     stream.source.where,
                     "give a smaller --budget",
                 )
-            if size is None or not f.is_binary or (budget_bytes <= BUFFER_LIMIT and not plan_only):
+            if f.is_binary and (size is None or (budget_bytes <= BUFFER_LIMIT and not plan_only)):
                 # read (and validate) before planning: standard input of unknown length, text, and
                 # anything small enough -- so that bad values are reported before any work
                 stream = _buffered(stream, budget_bytes)
-                if f.is_binary:
-                    whole = budget_bytes - budget_bytes % f.itemsize
-                    if explicit and stream.bytes_read < whole:
-                        raise InputError(
-                            f"stream is shorter than the plan needs ({whole} bytes needed, "
-                            f"{stream.bytes_read} available)",
-                            stream.source.where,
-                            "give a smaller --budget",
-                        )
-                    budget_bytes = min(budget_bytes, stream.bytes_read)
-        budget_for_plan = stream.source.values_total if (shared and not f.is_binary) else budget_bytes
-        plan = make_plan(f, budget_for_plan, shared=shared, checks=checks, skip=skip)
-        if not f.is_binary and shared:
-            plan.budget_bytes = budget_bytes
+                whole = budget_bytes - budget_bytes % f.itemsize
+                if explicit and stream.bytes_read < whole:
+                    raise InputError(
+                        f"stream is shorter than the plan needs ({whole} bytes needed, "
+                        f"{stream.bytes_read} available)",
+                        stream.source.where,
+                        "give a smaller --budget",
+                    )
+                budget_bytes = min(budget_bytes, stream.bytes_read)
+        grid_note = None
+        if isinstance(stream, _MemoryStream) and f.kind in ("floats", "text-floats"):
+            f, grid_note = _value_grid(f, stream.source.vals)
+            stream.fmt = f
+        plan = make_plan(f, budget_bytes, shared=shared, checks=checks, skip=skip)
         if plan_only:
             return plan
         settings = {"workers_used": workers, "retest": retest}
         if executor is not None:
             settings = {"executor": executor.describe(), "retest": retest}
+        if grid_note:
+            settings["value grid"] = grid_note
         report = run_battery(
             stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
             settings=settings, t0=t0, executor=executor,
         )
     return report
+
+
+def _value_grid(f, vals: np.ndarray):
+    """The grid float values read whole lie on, as a format the views follow, and a line for the report."""
+    import dataclasses
+
+    from .intake import views
+
+    if f.kind == "text-floats":
+        d = views.decimal_grid(vals)
+        if d is not None and d >= 1:
+            return dataclasses.replace(f, decimals=d), (
+                f"printed with {d} decimals: every value on the 10^-{d} grid; bit views take the {d} bits "
+                f"the digits carry, uniforms are spread over their grid cells (dither seed {views.DITHER_SEED})")
+    claimed = views.uniform_resolution_bits(f)
+    r = views.fraction_grid_bits(vals, claimed)
+    line = (f"every value a multiple of 2^-{r} ({r} fraction bits; the format holds {claimed})"
+            + ("; word and bit views take only these bits" if r < claimed else ""))
+    return dataclasses.replace(f, grid_bits=r), line
 
 
 def sweep_seeds(*args, **kwargs):
@@ -200,7 +241,9 @@ class _MemoryStream(Stream):
         return out
 
     def info(self):
-        return self._inner.info()
+        info = self._inner.info()
+        info.format = self.fmt.describe()  # names the grid found when the values were read whole
+        return info
 
     def close(self) -> None:
         self._inner.close()
@@ -214,9 +257,11 @@ def _buffered(stream: Stream, budget_bytes: int) -> Stream:
         if stream.ended:
             stream.read_values(1)  # reaches the end: a trailing partial value raises
         chunks.append(vals)
-    else:
-        while stream.bytes_read < budget_bytes and not stream.ended:
-            chunks.append(stream.read_values(1 << 16))
+    else:  # text: budget_bytes counts values
+        got = 0
+        while got < budget_bytes and not stream.ended:
+            chunks.append(stream.read_values(min(1 << 20, budget_bytes - got)))
+            got += chunks[-1].size
     vals = np.concatenate(chunks) if chunks else np.empty(0, dtype=stream.fmt.dtype)
     if vals.size == 0:
         raise InputError("empty stream: no values to test", stream.source.where, "check the source produces data")
@@ -262,6 +307,7 @@ def assay_stream(
     progress: Callable[[str], None] | None = None,
     command: str = "test",
     strict_selectors: bool = True,
+    windows: bool = True,
 ) -> Report:
     """Run the battery on an already-open finite stream (all of it, or ``budget`` bytes).
 
@@ -270,6 +316,6 @@ def assay_stream(
     size = stream.source.size_hint()
     budget_bytes = budget if budget is not None else (size if size is not None else DEFAULT_BUDGET)
     plan = make_plan(stream.fmt, budget_bytes, shared=not stream.unlimited, checks=checks, skip=skip,
-                     strict_selectors=strict_selectors)
+                     strict_selectors=strict_selectors, windows=windows)
     return run_battery(stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
                        command=command, settings={"workers_used": workers, "retest": retest})

@@ -1137,7 +1137,8 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
                                kind="derived")
     with stream:
         return assay_stream(stream, checks=bsel, skip=bskip or None, alpha=alpha, workers=workers,
-                            retest=False, progress=progress, command="fit", strict_selectors=False)
+                            retest=False, progress=progress, command="fit", strict_selectors=False,
+                            windows=False)  # PIT values' last bits are rounding of F(x), not randomness
 
 
 # =========================================================================== command line

@@ -156,7 +156,7 @@ class DaskExecutor(Executor):
             addr = self.address
         return f"dask {addr}"
 
-    def submit_segment(self, vals: np.ndarray, fmt, checks) -> Any:
+    def submit_segment(self, vals: np.ndarray, fmt, checks, segment: int = 0) -> Any:
         """Start checks on one segment, spread over the cluster in fixed interleaved slices; the segment is
         sent to the cluster once. :meth:`collect` (inherited) returns the results in plan order."""
         if self._pool is None:
@@ -166,7 +166,7 @@ class DaskExecutor(Executor):
         w = max(1, min(self.workers, len(checks)))
         slices = [list(range(i, len(checks), w)) for i in range(w)]
         data = self._pool.scatter(vals) if len(slices) > 1 else vals
-        futs = [self._pool.submit(_run_segment_task, data, fmt, [checks[j] for j in s]) for s in slices]
+        futs = [self._pool.submit(_run_segment_task, data, fmt, [checks[j] for j in s], segment) for s in slices]
         return ("futures", slices, futs, len(checks))
 
     def run_segment(self, vals: np.ndarray, fmt, checks):

@@ -104,7 +104,15 @@ def second_level(outcome: Outcome) -> RoundResult | None:
     null = firsts[0].null
     # the result's own kind decides (a check may fall back to an exact discrete law for small counts)
     continuous = spec.kind == "continuous" and all(r.kind == "continuous" for rs in reps for r in rs)
-    if continuous and not multi:
+    sufficient = None
+    if not multi and all(r.pooled for r in firsts):
+        sufficient = pool_sufficient(spec, firsts)
+    if sufficient is not None:
+        # the replicates' sufficient statistics are pooled and tested once: a steady small deviation is
+        # found as if the check had seen all the data at once
+        parts["pooled"] = sufficient
+        candidates.append(sufficient["p_value"])
+    elif continuous and not multi:
         if R >= 2:
             d, p_ks = stats.ks_uniform(np.asarray(per_rep))
             parts["uniformity"] = {"method": "kolmogorov-smirnov", "statistic": float(d), "p_value": float(p_ks)}
@@ -112,17 +120,44 @@ def second_level(outcome: Outcome) -> RoundResult | None:
         k, right, _left = stats.proportion_below(np.asarray(per_rep), PROPORTION_THRESHOLD)
         parts["proportion_below"] = {"threshold": PROPORTION_THRESHOLD, "count": int(k), "of": R, "p_value": float(right)}
         candidates.append(right)
-    elif not multi and all(r.pooled for r in firsts):
-        pooled = _pool(firsts, spec.both_tails)
-        if pooled is not None:
-            parts["pooled"] = pooled
-            candidates.append(pooled["p_value"])
     p = stats.clip_p(min(1.0, len(candidates) * min(candidates)))
     parts["method"] = f"Bonferroni minimum of {len(candidates)} second-level p-value{'s' if len(candidates) > 1 else ''}"
     statistic = firsts[0].statistic if R == 1 else None
     if "pooled" in parts:
         statistic = parts["pooled"]["statistic"]
     return RoundResult(p, per_rep, None if statistic is None else float(statistic), parts, R, null)
+
+
+def pool_sufficient(spec: Any, firsts: list[CheckResult]) -> dict[str, Any] | None:
+    """Pool the replicates' sufficient statistics and test them once; None when they cannot be pooled.
+
+    - a check with its own ``pool`` (registry) re-runs its test on the summed tables;
+    - ``{"counts", "probs"?}``: cell counts add up; one chi-square on the pooled table (df do not grow);
+    - ``{"z"}``: independent standard normal statistics, pooled as sum(z) / sqrt(R);
+    - Poisson ``{"observed", "mu"}``, chi-square ``{"statistic", "df"}`` and binomial ``{"observed", "n", "p"}``
+      totals add up as before.
+    """
+    both = spec.both_tails
+    d0 = firsts[0].pooled or {}
+    custom = getattr(spec, "pool", None)
+    if custom is not None:
+        try:
+            r = custom([f.pooled for f in firsts])
+        except (KeyError, ValueError, TypeError):
+            return None
+        p = _first_level_p(r, both)
+        return {"law": r.null + " on pooled tables", "statistic": float(r.statistic), "p_right": float(r.p_value),
+                "p_left": float(r.p_left) if r.p_left is not None else None, "p_value": float(p)}
+    if "z" in d0:
+        try:
+            z = float(np.sum([float(f.pooled["z"]) for f in firsts]) / math.sqrt(len(firsts)))
+        except (KeyError, ValueError, TypeError):
+            return None
+        right, left = stats.normal_tails(z)
+        p = stats.clip_p(min(1.0, 2.0 * min(right, left))) if both else stats.clip_p(right)
+        return {"law": f"normal: sum of {len(firsts)} z / sqrt({len(firsts)})", "statistic": z,
+                "p_right": float(right), "p_left": float(left), "p_value": float(p)}
+    return _pool(firsts, both)
 
 
 def _pool(firsts: list[CheckResult], both: bool) -> dict[str, Any] | None:
@@ -138,7 +173,7 @@ def _pool(firsts: list[CheckResult], both: bool) -> dict[str, Any] | None:
             # category counts with equal probabilities: pool by adding counts, then chi-square
             counts = np.sum([np.asarray(r.pooled["counts"], dtype=float) for r in firsts], axis=0)
             probs = d0.get("probs")
-            res = stats.chisquare_gof(counts, probs=np.asarray(probs) if probs is not None else np.full(counts.size, 1.0 / counts.size))
+            res = stats.chisquare_gof(counts, probs=np.asarray(probs, dtype=float) if probs is not None else np.full(counts.size, 1.0 / counts.size))
             right, left = res.p_value, res.p_left
             out = {"law": f"chi2(df={res.df:g}) on pooled counts", "statistic": float(res.statistic)}
         elif "n" in d0 and "p" in d0:

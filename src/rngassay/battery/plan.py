@@ -77,10 +77,12 @@ class Plan:
         from ..sizes import format_size
 
         unit = "values" if not self.fmt.is_binary else "bytes"
+        budget = (f"{format_size(self.budget_bytes)} ({self.budget_bytes} bytes)" if self.fmt.is_binary
+                  else f"{self.budget_bytes} values")
         lines = [
             f"plan: {len(self.checks)} checks, {self.segments} replicates each, "
             + (f"shared segments of {self.segment_bytes} {unit}" if self.shared else "fresh data for every check"),
-            f"budget {format_size(self.budget_bytes)} ({self.budget_bytes} bytes); format {self.fmt.describe()}",
+            f"budget {budget}; format {self.fmt.describe()}",
             "",
             f"  {'check':<52} {'family':<11} {'view':<9} {'per replicate':>14} {'replicates':>10}",
         ]
@@ -119,8 +121,12 @@ def make_plan(
     families: tuple[str, ...] | None = None,
     segments: int | None = None,
     strict_selectors: bool = True,
+    windows: bool = True,
 ) -> Plan:
-    """Choose checks and parameters for a budget. ``checks``/``skip`` select by key, family or id."""
+    """Choose checks and parameters for a budget. ``checks``/``skip`` select by key, family or id.
+
+    ``windows=False`` leaves out the runs of checks in other bit windows (low bits, fraction tail): for
+    derived values such as PIT values, whose last bits are rounding, not randomness."""
     registry = load_all()
     if fmt.is_binary and budget_bytes < MIN_BUDGET_BYTES:
         raise InputError(
@@ -160,7 +166,7 @@ def make_plan(
             # printed decimals have a grid of their own (e.g. 1e-6) that the format does not declare
             plan.skipped.append(f"{key}: text floats are rounded to their printed digits, so their grid is unknown")
             continue
-        per_value = views.input_bytes_per_value(fmt, spec.view) if fmt.is_binary else 1.0
+        per_value = views.input_bytes_per_value(fmt, spec.view)
         seg_for_check = seg
         if fmt.is_binary and not spec.extra.get("cheap") and seg * R > CHECK_CAP_BYTES:
             seg_for_check = max(1, CHECK_CAP_BYTES // R)
@@ -175,10 +181,12 @@ def make_plan(
         if not param_sets:
             plan.skipped.append(f"{key}: needs more data per replicate than {n_avail} {spec.view} values")
             continue
+        wins = [w for w in spec.windows if windows and w in views.available_windows(fmt, spec.view)]
+        param_sets = [p for p in param_sets] + [{**p, "window": w} for w in wins for p in param_sets]
         for params in param_sets:
             rp = spec.extra.get("resolution_param")
             if rp and spec.view == "uniforms":  # tell resolution-aware checks the grid the input claims
-                params = {**params, rp: views.uniform_resolution_bits(fmt)}
+                params = {**params, rp: views.claimed_bits(fmt)}
             cid = display_id(key, params)
             if checks and not _matches(spec, cid, checks):
                 continue
@@ -188,7 +196,7 @@ def make_plan(
             if need > n_avail:
                 plan.skipped.append(f"{cid}: needs {need} {spec.view} values per replicate, {n_avail} available")
                 continue
-            nbytes = int(math.ceil(need * per_value)) if fmt.is_binary else need
+            nbytes = int(math.ceil(need * per_value))
             if fmt.is_binary:
                 nbytes += (-nbytes) % max(8, fmt.itemsize)
             reps = max(1, min(R, int(spec.extra.get("max_replicates", R))))  # costly checks: fewer replicates

@@ -41,18 +41,23 @@ class ViewCache:
     them): the view is made of that prefix only, since capped checks read just the start of a segment.
     """
 
-    def __init__(self, vals: np.ndarray, fmt: Format, limits: dict[str, int] | None = None):
+    def __init__(self, vals: np.ndarray, fmt: Format, limits: dict[str, int] | None = None, segment: int = 0):
         self.vals, self.fmt = vals, fmt
         self.limits = limits or {}
+        self.segment = segment  # index of the segment in the run: seeds the text-float dither
         self._cache: dict[Any, Any] = {}
 
-    def get(self, view: str, k: int | None = None) -> Any:
-        key = (view, k)
+    def get(self, view: str, k: int | None = None, window: str | None = None) -> Any:
+        key = (view, k, window)
         if key not in self._cache:
             f, v = self.fmt, self.vals
             if view in self.limits:
                 v = v[: self.limits[view]]
-            if view == "bytes":
+            if window is not None:
+                out = views.as_window(v, f, view, window)
+            elif view == "uniforms" and f.kind == "text-floats" and f.decimals is not None:
+                out = views.dithered_uniforms(v, f.decimals, self.segment)
+            elif view == "bytes":
                 out = views.as_bytes(v, f)
             elif view == "words32":
                 out = views.as_words32(v, f)
@@ -77,7 +82,17 @@ def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[Che
     spec = spec if spec is not None else load_all()[pc.key]
     params = dict(pc.params)
     need = pc.values
-    if pc.view == "bits":
+    window = params.pop("window", None)
+    if window == "fraction-tail":
+        words, lane_bits = cache.get(pc.view, window=window)
+        if "lanes" in _parameters(spec.func):
+            params["lanes"] = list(range(lane_bits))
+        else:
+            params["lane_bits"] = lane_bits
+        res = spec.func(words[:need], **params)
+    elif window is not None:
+        res = spec.func(cache.get(pc.view, window=window)[:need], **params)
+    elif pc.view == "bits":
         packed, nbits = cache.get("bits")
         res = spec.func(packed[: -(-min(nbits, need) // 8)], **params)
     elif pc.view == "integers":
@@ -87,6 +102,15 @@ def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[Che
     else:
         res = spec.func(cache.get(pc.view)[:need], **params)
     return [res] if isinstance(res, CheckResult) else list(res)
+
+
+def _parameters(func: Any) -> tuple[str, ...]:
+    import inspect
+
+    try:
+        return tuple(inspect.signature(func).parameters)
+    except (TypeError, ValueError):
+        return ()
 
 
 def view_limits(fmt: Format, checks: list[PlannedCheck]) -> dict[str, int]:
@@ -104,8 +128,9 @@ def view_limits(fmt: Format, checks: list[PlannedCheck]) -> dict[str, int]:
     return out
 
 
-def _run_segment_task(vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]) -> list[tuple[list[CheckResult] | None, str | None, float]]:
-    cache = ViewCache(vals, fmt, view_limits(fmt, checks))
+def _run_segment_task(vals: np.ndarray, fmt: Format, checks: list[PlannedCheck],
+                      segment: int = 0) -> list[tuple[list[CheckResult] | None, str | None, float]]:
+    cache = ViewCache(vals, fmt, view_limits(fmt, checks), segment)
     out = []
     for pc in checks:
         t = time.perf_counter()
@@ -135,14 +160,14 @@ class Executor:
         if self._pool is not None:
             self._pool.shutdown(wait=exc[0] is None, cancel_futures=True)
 
-    def submit_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]) -> Any:
+    def submit_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck], segment: int = 0) -> Any:
         """Start checks on one segment (spread over the workers in fixed slices); see :meth:`collect`."""
         if self._pool is None or len(checks) < 2:
-            return ("done", _run_segment_task(vals, fmt, checks))
+            return ("done", _run_segment_task(vals, fmt, checks, segment))
         w = min(self.workers, len(checks))
         # interleaved slices balance expensive and cheap checks; results are put back in plan order
         slices = [list(range(i, len(checks), w)) for i in range(w)]
-        futs = [self._pool.submit(_run_segment_task, vals, fmt, [checks[j] for j in s]) for s in slices]
+        futs = [self._pool.submit(_run_segment_task, vals, fmt, [checks[j] for j in s], segment) for s in slices]
         return ("futures", slices, futs, len(checks))
 
     def collect(self, handle: Any) -> list:
@@ -197,7 +222,7 @@ def run_plan(
                         progress(f"segment {j + 1}/{plan.segments}: {len(todo)} checks")
                     vals = _read_segment(stream, plan)
                     active = [o for o in outcomes if j < o.check.replicates]
-                    handle = executor.submit_segment(vals, plan.fmt, [o.check for o in active])
+                    handle = executor.submit_segment(vals, plan.fmt, [o.check for o in active], j)
                     if pending is not None:
                         absorb(*pending)
                     pending = (j, active, handle)
@@ -231,7 +256,7 @@ def run_plan(
                     batch.append(vals)
                     o.bytes += o.check.bytes
                 # fresh data per check: run each on its own data, spread over the workers
-                results = _run_fresh(executor, batch, plan.fmt, [o.check for o in active])
+                results = _run_fresh(executor, batch, plan.fmt, [o.check for o in active], j)
                 for o, (res, err, sec) in zip(active, results):
                     o.seconds += sec
                     o.results[j] = res
@@ -248,10 +273,10 @@ def run_plan(
     return outcomes, reason is None, reason
 
 
-def _run_fresh(executor: Executor, batch: list[np.ndarray], fmt: Format, checks: list[PlannedCheck]):
+def _run_fresh(executor: Executor, batch: list[np.ndarray], fmt: Format, checks: list[PlannedCheck], segment: int = 0):
     if executor._pool is None:
-        return [_run_segment_task(v, fmt, [pc])[0] for v, pc in zip(batch, checks)]
-    futs = [executor._pool.submit(_run_segment_task, v, fmt, [pc]) for v, pc in zip(batch, checks)]
+        return [_run_segment_task(v, fmt, [pc], segment)[0] for v, pc in zip(batch, checks)]
+    futs = [executor._pool.submit(_run_segment_task, v, fmt, [pc], segment) for v, pc in zip(batch, checks)]
     return [f.result()[0] for f in futs]
 
 

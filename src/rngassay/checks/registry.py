@@ -42,6 +42,9 @@ class CheckSpec:
                      e.g. serial d=2 and d=3); empty list = not enough data
     both_tails    -- True when a too-small statistic is evidence too (p_left is meaningful)
     source        -- citation of the method definition
+    pool          -- optional: pool(list of the replicates' ``pooled`` dicts) -> CheckResult, the check's own
+                     test on the pooled sufficient statistics (when a plain chi-square on summed counts is not
+                     its statistic, e.g. Good's first difference); see ``battery.grade.pool_sufficient``
     """
 
     key: str
@@ -56,6 +59,8 @@ class CheckSpec:
     source: str = ""
     notes: str = ""
     extra: dict[str, Any] = field(default_factory=dict)
+    pool: Callable[[list[dict]], Any] | None = None
+    windows: tuple[str, ...] = ()  # other bits of the same values the check also runs on (intake.views.WINDOWS)  # re-test from the replicates' summed ``pooled`` tables
 
 
 REGISTRY: dict[str, CheckSpec] = {}

@@ -38,6 +38,9 @@ class Format:
     itemsize  -- bytes per value in the stream (0 for text)
     kind      -- "bytes", "words", "floats", "text-floats" or "text-integers"
     lo, hi    -- inclusive range of text integers (only for "text-integers")
+    decimals  -- text floats: the printed grid 10^-decimals every value lies on, when read whole and found
+    grid_bits -- floats: the fraction bits every value carries (all values are multiples of 2^-grid_bits),
+                 when read whole before planning; None = not known in advance (judged per segment)
     """
 
     name: str
@@ -46,6 +49,8 @@ class Format:
     kind: str
     lo: int | None = None
     hi: int | None = None
+    decimals: int | None = None
+    grid_bits: int | None = None
 
     @property
     def is_binary(self) -> bool:
@@ -70,6 +75,10 @@ class Format:
     def describe(self) -> str:
         if self.kind == "text-integers":
             return f"text integers {self.lo}..{self.hi}"
+        if self.kind == "text-floats" and self.decimals is not None:
+            return f"text floats on a 10^-{self.decimals} grid"
+        if self.kind in ("floats", "text-floats") and self.grid_bits is not None:
+            return f"{self.name}, values on a 2^-{self.grid_bits} grid"
         return self.name
 
 

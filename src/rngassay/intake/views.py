@@ -23,6 +23,32 @@ Input kinds (see :mod:`rngassay.intake.formats`): raw bytes (``u1``), unsigned w
     resolution: numpy's ``Generator.random`` convention). ``u8`` words the same way; ``u4`` words
     ``w * 2**-32`` (32-bit resolution), ``u2`` words ``w * 2**-16``. Float inputs keep their own
     values and resolution (``<f4``: 24 bits). Text integers have no uniform view.
+``words32`` / ``bits`` of floats (wave 2a)
+    Floats carry ``r`` fraction bits: ``r`` = the claimed resolution (53 for ``<f8``, 24 for ``<f4``)
+    or, where the values were read whole before planning, the **effective** resolution found in them
+    (every value a multiple of ``2^-r``: :func:`fraction_grid_bits`), never more than claimed; text
+    floats printed with ``d`` decimals carry exactly ``d`` bits (``floor(u 2^d) = floor(k / 5^d)`` for
+    ``u = k 10^-d``, and each of the ``2^d`` results takes exactly ``5^d`` grid points, so the bits are
+    exactly fair when the printed values are uniform on their grid). Let ``m = floor(u 2^r)``.
+    For ``r >= 32`` the words32 view is the top 32 bits, ``m >> (r - 32) = floor(u 2^32)``, one word per
+    value, and the bits view is those words' bits, most significant first. For ``r < 32`` (``<f4``, text
+    decimals) the ``r``-bit fields ``m`` are concatenated, most significant bit first, into one bit
+    sequence (the bits view), cut into 32-bit words read big-endian (the words32 view): no bit the values
+    do not carry is ever shown to a check, so a coarse grid is judged once (by the resolution check), not
+    again by every bit-level check.
+``tail`` lanes of floats (window ``fraction-tail``)
+    For ``r > 32``: the fraction bits below the top 32, ``m & (2^(r-32) - 1)``, as words whose lanes
+    0..r-33 are checked as bit lanes of their own (lane 0 = the last bit the values carry).
+``reversed`` window
+    The lowest 32 bits a value carries, bit-reversed, so that its least significant bit becomes the most
+    significant: words and bytes: each words32 value reversed; floats with ``r >= 32``: ``m mod 2^32``
+    reversed. ``uniforms`` in this window are ``reversed * 2^-32``. Word checks run here too, on the bits
+    where linear congruential generators are weakest.
+``uniforms`` of text floats on a 10^-d grid
+    ``(k + V) 10^-d`` with ``k = round(u 10^d)`` and ``V`` uniform on [0, 1) from numpy's PCG64 seeded
+    with ``(DITHER_SEED, segment)``: exactly U(0, 1) when the printed values are uniform on their grid
+    (a randomised interval transform; common practice), so no check that cuts [0, 1) into cells that do
+    not divide the grid can fail an honest, rounded stream.
 ``integers``
     Unbiased integers in [0, k). Text integers with ``--range LO:HI``: ``value - LO`` with
     ``k = HI - LO + 1`` fixed by the declaration. Byte and word inputs: 32-bit words; for k a power
@@ -38,6 +64,10 @@ import numpy as np
 from .formats import Format
 
 VIEW_NAMES = ("bytes", "words32", "words64", "bits", "uniforms", "integers")
+#: Windows: other bits of the same values, for checks whose registry entry lists them.
+WINDOWS = ("reversed", "fraction-tail")
+#: Seed of the dither that spreads text floats over their grid cells (recorded in every report).
+DITHER_SEED = 20261202
 
 
 def available_views(fmt: Format) -> tuple[str, ...]:
@@ -45,13 +75,47 @@ def available_views(fmt: Format) -> tuple[str, ...]:
     if fmt.kind in ("bytes", "words"):
         return VIEW_NAMES
     if fmt.kind in ("floats", "text-floats"):
-        return ("uniforms", "integers")
+        return ("words32", "bits", "uniforms", "integers")
     return ("integers",)
+
+
+def claimed_bits(fmt: Format) -> int:
+    """Fraction bits a float format claims (text floats: their printed decimals when known)."""
+    if fmt.kind == "text-floats" and fmt.decimals is not None:
+        return fmt.decimals
+    return uniform_resolution_bits(fmt)
+
+
+def float_bits(fmt: Format) -> int:
+    """Fraction bits the views take from each float value (see the module docstring)."""
+    if fmt.kind == "text-floats" and fmt.decimals is not None:
+        return fmt.decimals
+    c = uniform_resolution_bits(fmt)
+    return min(c, fmt.grid_bits) if fmt.grid_bits is not None else c
+
+
+def available_windows(fmt: Format, view: str) -> tuple[str, ...]:
+    """Windows a check on ``view`` can also run in, for this format."""
+    out = []
+    wide = fmt.kind in ("bytes", "words") or (fmt.kind in ("floats", "text-floats") and float_bits(fmt) >= 32)
+    if view in ("words32", "uniforms") and wide and fmt.kind != "text-floats":
+        out.append("reversed")
+    if view == "words32" and fmt.kind == "floats" and float_bits(fmt) > 32:
+        out.append("fraction-tail")
+    return tuple(out)
 
 
 def input_bytes_per_value(fmt: Format, view: str) -> float:
     """Stream bytes (binary) or values (text) consumed per view value. Bits: per bit."""
     size = fmt.itemsize
+    if fmt.kind in ("floats", "text-floats") and view in ("words32", "bits"):
+        per = float(size) if size else 1.0
+        r = float_bits(fmt)
+        if r >= 32:
+            return per if view == "words32" else per / 32.0
+        return per * 32.0 / r if view == "words32" else per / r
+    if not fmt.is_binary:
+        return 1.0
     if view == "bytes":
         return 1.0
     if view == "words32":
@@ -82,6 +146,94 @@ def uniform_resolution_bits(fmt: Format) -> int:
     return 53
 
 
+def fraction_grid_bits(u: np.ndarray, claimed: int) -> int:
+    """Effective resolution: the largest r <= claimed with every value a multiple of 2^-r (0 for all zeros).
+
+    ``floor(u 2^claimed)`` is exact for doubles (a power-of-two scaling); the trailing zeros common to all
+    of them are the bits the values do not carry."""
+    if u.size == 0:
+        return claimed
+    m = np.floor(np.asarray(u, dtype=np.float64) * 2.0**claimed).astype(np.uint64)
+    acc = int(np.bitwise_or.reduce(m))
+    if acc == 0:
+        return 0
+    return claimed - ((acc & -acc).bit_length() - 1)
+
+
+def decimal_grid(x: np.ndarray, max_decimals: int = 15) -> int | None:
+    """The number of decimals d (0..max_decimals) such that every value is a multiple of 10^-d (within
+    float rounding), or None when the values are not on such a grid (full-precision data)."""
+    if x.size == 0 or not np.all(np.isfinite(x)):
+        return None
+    for d in range(max_decimals + 1):
+        y = x * 10.0**d
+        tol = 1e-6 + 8 * np.finfo(float).eps * np.abs(y)
+        if np.all(np.abs(y - np.rint(y)) <= tol):
+            return d
+    return None
+
+
+def _float_fields(vals: np.ndarray, fmt: Format) -> tuple[np.ndarray, int]:
+    """(m = floor(u 2^r) as uint64, r) for float values (text floats on a decimal grid: floor(k / 5^d))."""
+    r = float_bits(fmt)
+    u = vals.astype(np.float64, copy=False)
+    if fmt.kind == "text-floats" and fmt.decimals is not None:
+        d = fmt.decimals
+        k = np.rint(u * 10.0**d).astype(np.int64)
+        return (k // 5**d).astype(np.uint64), d
+    if fmt.grid_bits is None:  # not read whole before planning: the grid of this segment's values
+        r = min(r, fraction_grid_bits(u, r))
+    return np.floor(u * 2.0**r).astype(np.uint64), r
+
+
+def _pack_fields(m: np.ndarray, r: int) -> np.ndarray:
+    """Concatenate the r-bit fields m (r < 32), most significant bit first, into packed bytes."""
+    be = m.astype(">u4").view(np.uint8).reshape(-1, 4)
+    bits = np.unpackbits(be, axis=1)[:, 32 - r :]
+    return np.packbits(bits.ravel())
+
+
+_REV8 = np.array([int(f"{i:08b}"[::-1], 2) for i in range(256)], dtype=np.uint8)
+
+
+def reverse32(w: np.ndarray) -> np.ndarray:
+    """Bit-reverse each uint32 (bit 0 becomes bit 31)."""
+    b = np.ascontiguousarray(w, dtype="<u4").view(np.uint8).reshape(-1, 4)
+    return np.ascontiguousarray(_REV8[b[:, ::-1]]).view("<u4").ravel().astype(np.uint32, copy=False)
+
+
+def as_window(vals: np.ndarray, fmt: Format, view: str, window: str):
+    """The ``view`` of the ``window`` (module docstring): words32 (reversed or fraction-tail) or uniforms."""
+    if window == "reversed":
+        if fmt.kind in ("floats", "text-floats"):
+            m, r = _float_fields(vals, fmt)
+            if r < 32:
+                raise ValueError(f"no reversed window for floats carrying {r} bits")
+            w = reverse32((m & np.uint64(0xFFFFFFFF)).astype(np.uint32))
+        else:
+            w = reverse32(as_words32(vals, fmt))
+        if view == "uniforms":
+            return w.astype(np.float64) * 2.0**-32
+        if view == "words32":
+            return w
+    if window == "fraction-tail" and view == "words32" and fmt.kind == "floats":
+        m, r = _float_fields(vals, fmt)
+        if r <= 32:
+            raise ValueError(f"no fraction-tail window for floats carrying {r} bits")
+        return (m & np.uint64((1 << (r - 32)) - 1)).astype(np.uint32), r - 32
+    raise ValueError(f"no {window!r} window of the {view} view for {fmt.describe()}")
+
+
+def dithered_uniforms(vals: np.ndarray, decimals: int, segment: int, seed: int = DITHER_SEED) -> np.ndarray:
+    """Text floats on a 10^-d grid spread uniformly over their cells (module docstring)."""
+    scale = 10.0**decimals
+    k = np.rint(np.asarray(vals, dtype=np.float64) * scale)
+    v = np.random.Generator(np.random.PCG64(np.random.SeedSequence([seed, int(segment)]))).random(k.size)
+    u = (k + v) / scale
+    np.minimum(u, np.nextafter(1.0, 0.0), out=u)
+    return u
+
+
 def as_bytes(vals: np.ndarray, fmt: Format) -> np.ndarray:
     if fmt.kind not in ("bytes", "words"):
         raise ValueError(f"no byte view for {fmt.describe()}")
@@ -93,6 +245,12 @@ def _trim(a: np.ndarray, multiple: int) -> np.ndarray:
 
 
 def as_words32(vals: np.ndarray, fmt: Format) -> np.ndarray:
+    if fmt.kind in ("floats", "text-floats"):
+        m, r = _float_fields(vals, fmt)
+        if r >= 32:
+            return (m >> np.uint64(r - 32)).astype(np.uint32)
+        packed = _pack_fields(m, r)
+        return _trim(packed, 4).view(">u4").astype(np.uint32)
     if fmt.kind == "bytes":
         return _trim(np.ascontiguousarray(vals), 4).view("<u4").astype(np.uint32, copy=False)
     if fmt.kind != "words":
@@ -123,6 +281,12 @@ def as_words64(vals: np.ndarray, fmt: Format) -> np.ndarray:
 
 def as_bits(vals: np.ndarray, fmt: Format) -> tuple[np.ndarray, int]:
     """(packed uint8 MSB-first, number of bits)."""
+    if fmt.kind in ("floats", "text-floats"):
+        m, r = _float_fields(vals, fmt)
+        if r >= 32:
+            b = np.ascontiguousarray((m >> np.uint64(r - 32)).astype(">u4")).view(np.uint8)
+            return b, int(b.size) * 8
+        return _pack_fields(m, r), int(m.size) * r
     if fmt.kind == "bytes":
         b = np.ascontiguousarray(vals).view(np.uint8)
     elif fmt.kind == "words":

@@ -391,7 +391,7 @@ def _defaults(n: int) -> list[dict]:
 
 
 register(CheckSpec(
-    key="birthday spacings", family="classic", title="birthday-spacings test (Marsaglia; Knuth 3.3.2 J)",
+    key="birthday spacings", family="classic", windows=("reversed",), title="birthday-spacings test (Marsaglia; Knuth 3.3.2 J)",
     view="words32", kind="discrete", func=check_birthday_spacings, values_needed=lambda p: int(p["n"]),
     default_params=_defaults, both_tails=True, source=SOURCE,
     notes="m=512 in 2^24 days at bit offsets 8, 4, 0; m=8192 in 2^36 days from word pairs; exact mean; "

@@ -37,7 +37,7 @@ from rngassay.errors import InputError
 from rngassay.stats import EXACT_MULTINOMIAL_MAX_OUTCOMES, chi2_tails, exact_multinomial_p
 
 from .frequency import KNUTH, equiprobable_chi2, result_name, small_list, take
-from .serial import MAX_CELLS, first_difference, overlapping_counts
+from .serial import MAX_CELLS, first_difference, overlapping_counts, pool_first_difference
 
 #: Smallest expected count per cell for the chi-square form (common practice, Cochran's rule).
 MIN_EXPECTED = 5.0
@@ -94,7 +94,7 @@ def check_categorical_frequency(data: np.ndarray, k: int, n: int | None = None) 
     method = "chi-square" if expected >= MIN_EXPECTED else "chi-square (expected < 5: approximate)"
     return CheckResult(
         name=name, statistic=x2, p_value=right, p_left=left, null=f"chi2(df={df})", n=m,
-        details={**details, "method": method},
+        details={**details, "method": method}, pooled={"counts": counts, "k": k},
     )
 
 
@@ -160,6 +160,7 @@ def check_categorical_serial(data: np.ndarray, k: int, d: int = 2, groups: int |
         null=f"chi2(df={df})", n=m,
         details={"psi2_d": s_d, "psi2_d_minus_1": s_d1, "cells": g**d, "groups": g,
                  "min_expected_per_cell": m * pmin**d},
+        pooled={"counts": counts, "v": g, "d": d, "n": m, "marg": marg, "name": "categorical serial"},
     )
 
 
@@ -179,6 +180,6 @@ register(CheckSpec(
     title="serial test on overlapping pairs and triples of categorical outcomes", view="integers",
     kind="continuous", func=check_categorical_serial, values_needed=lambda p: int(p["n"]),
     default_params=lambda n: [{"n": n, "d": d} for d in (2, 3) if n >= 100],
-    both_tails=True, source=f"Good (1953) J. Roy. Statist. Soc. B 15; {KNUTH} B",
+    both_tails=True, pool=pool_first_difference, source=f"Good (1953) J. Roy. Statist. Soc. B 15; {KNUTH} B",
     notes="d = 2 and 3; outcomes merged into coarser groups when k^d cells are too many for the data",
 ))

@@ -357,7 +357,7 @@ def _defaults(n: int) -> list[dict]:
 
 
 register(CheckSpec(
-    key="collision", family="classic", title="collision test (Knuth 3.3.2 I)", view="uniforms",
+    key="collision", family="classic", windows=("reversed",), title="collision test (Knuth 3.3.2 I)", view="uniforms",
     kind="discrete", func=check_collision, values_needed=lambda p: int(p["n"]),
     default_params=_defaults, both_tails=True, source=KNUTH_COLLISION,
     notes="2^14 balls in 2^20 urns per set; variants t = 1, 2, 4, 20; exact law of the total; "

@@ -100,12 +100,14 @@ def check_coupon(data: np.ndarray, d: int = 8, t: int = 40, n: int | None = None
             name=result_name("coupon collector", {"d": d, "t": t}), statistic=x2, p_value=right, p_left=left,
             null=f"chi2(df={df}) on value frequencies (too few segments for the coupon chi-square)",
             n=int(u.size), details={"segments": int(counts.sum()), "fallback": "value frequencies"},
+            pooled={"counts": cells},
         )
     return CheckResult(
         name=result_name("coupon collector", {"d": d, "t": t}), statistic=res.statistic,
         p_value=res.p_value, p_left=res.p_left, null=f"chi2(df={res.df})", n=int(u.size),
         details={"segments": int(counts.sum()), "unfinished_segment": int(tail),
                  "counts": small_list(counts), "pooled_cells": len(res.pooled_bins)},
+        pooled={"counts": counts, "probs": probs},
     )
 
 

@@ -177,6 +177,7 @@ def check_equidistribution(data: np.ndarray, d: int = 16, n: int | None = None) 
         name=result_name("equidistribution", {"d": d}), statistic=x2, p_value=right, p_left=left,
         null=f"chi2(df={df})", n=int(u.size),
         details={"d": d, "expected_per_bin": u.size / d, "counts": small_list(counts, 64)},
+        pooled={"counts": counts},
     )
 
 
@@ -196,6 +197,7 @@ def check_byte_frequency(data: np.ndarray, n: int | None = None) -> CheckResult:
         n=int(b.size),
         details={"expected_per_value": b.size / 256, "rarest": [lo, int(counts[lo])],
                  "commonest": [hi, int(counts[hi])]},
+        pooled={"counts": counts},
     )
 
 
@@ -217,6 +219,7 @@ def check_u16_frequency(data: np.ndarray, n: int | None = None) -> CheckResult:
         n=2 * m,
         details={"values": m, "expected_per_value": m / 65536, "rarest": [lo, int(counts[lo])],
                  "commonest": [hi, int(counts[hi])]},
+        pooled={"counts": counts},
     )
 
 

@@ -87,12 +87,14 @@ def check_gap(data: np.ndarray, a: float = 0.0, b: float = 0.5, t: int = 16,
             name=result_name("gap", {"a": a, "b": b, "t": t}), statistic=float(hits), p_value=right,
             p_left=left, null=f"binomial(n={u.size}, p={b - a:g}) hits in [a, b) (too few gaps for chi-square)",
             kind="discrete", n=int(u.size), details={"gaps": int(counts.sum()), "fallback": "hits in [a, b)"},
+            pooled={"observed": hits, "n": int(u.size), "p": b - a},
         )
     return CheckResult(
         name=result_name("gap", {"a": a, "b": b, "t": t}), statistic=res.statistic,
         p_value=res.p_value, p_left=res.p_left, null=f"chi2(df={res.df})", n=int(u.size),
         details={"gaps": int(counts.sum()), "unfinished_gap": int(tail), "counts": small_list(counts),
                  "pooled_cells": len(res.pooled_bins)},
+        pooled={"counts": counts, "probs": probs},
     )
 
 
@@ -126,7 +128,7 @@ def _gap_defaults(n: int) -> list[dict]:
 
 
 register(CheckSpec(
-    key="gap", family="classic", title="gap test", view="uniforms", kind="continuous", func=check_gap,
+    key="gap", family="classic", windows=("reversed",), title="gap test", view="uniforms", kind="continuous", func=check_gap,
     values_needed=lambda p: int(p["n"]), default_params=_gap_defaults, both_tails=True,
     source=f"{KNUTH} C",
     notes="[0, 0.5) and [0.9375, 1); t so that >= 10 gaps are expected in the lumped class (t <= 256)",

@@ -89,6 +89,7 @@ def check_permutation(data: np.ndarray, t: int = 3, n: int | None = None) -> Che
         null=f"chi2(df={df})", n=m * t,
         details={"tuples": m, "ties": int(ties), "expected_per_order": (m - ties) / math.factorial(t),
                  "counts": small_list(counts, 24)},
+        pooled={"counts": counts},
     )
 
 

@@ -104,6 +104,7 @@ def check_poker(data: np.ndarray, d: int = 8, k: int = 5, n: int | None = None) 
         name=result_name("poker", {"d": d, "k": k}), statistic=res.statistic, p_value=res.p_value,
         p_left=res.p_left, null=f"chi2(df={res.df})", n=m * k,
         details={"hands": m, "counts_by_distinct": small_list(counts), "pooled_cells": len(res.pooled_bins)},
+        pooled={"counts": counts, "probs": probs},
     )
 
 
@@ -127,7 +128,7 @@ def _poker_defaults(n: int) -> list[dict]:
 
 
 register(CheckSpec(
-    key="poker", family="classic", title="poker (partition) test", view="uniforms", kind="continuous",
+    key="poker", family="classic", windows=("reversed",), title="poker (partition) test", view="uniforms", kind="continuous",
     func=check_poker, values_needed=lambda p: int(p["n"]), default_params=_poker_defaults,
     both_tails=True, source=f"{KNUTH} D",
     notes="(d, k) = (8, 5) and (32, 8)",

@@ -135,6 +135,7 @@ def check_serial(data: np.ndarray, d: int = 2, v: int = 8, n: int | None = None)
         null=f"chi2(df={df})", n=m * d,
         details={"tuples": m, "cells": v**d, "expected_per_cell": m / v**d,
                  "empty_cells": int(np.count_nonzero(counts == 0))},
+        pooled={"counts": counts},
     )
 
 
@@ -158,7 +159,29 @@ def check_serial_overlapping(data: np.ndarray, d: int = 2, v: int = 8, n: int | 
         p_left=left, null=f"chi2(df={df})", n=int(u.size),
         details={"psi2_d": s_d, "psi2_d_minus_1": s_d1, "cells": v**d,
                  "expected_per_cell": u.size / v**d, "empty_cells": int(np.count_nonzero(counts == 0))},
+        pooled={"counts": counts, "v": v, "d": d, "n": int(u.size), "name": "serial overlapping"},
     )
+
+
+def pool_first_difference(pooled: list[dict]) -> CheckResult:
+    """Good's first difference on the replicates' overlapping-tuple counts added up.
+
+    Each replicate's circular d-tuple table sums to its n; the summed table is the table of all
+    tuples (the d − 1 table follows from it the same way), so Δψ²_d on it is the statistic of all
+    the data at once, chi-square with v^d − v^(d−1) d.o.f. as for one segment.
+    """
+    p0 = pooled[0]
+    v, d = int(p0["v"]), int(p0["d"])
+    if any(int(p["v"]) != v or int(p["d"]) != d for p in pooled):
+        raise ValueError("replicates with different cells cannot be pooled")
+    counts = np.sum([np.asarray(p["counts"], dtype=np.int64) for p in pooled], axis=0)
+    n = int(sum(int(p["n"]) for p in pooled))
+    marg = p0.get("marg")
+    delta, s_d, s_d1 = first_difference(counts, v, n, None if marg is None else np.asarray(marg))
+    df = v**d - v ** (d - 1)
+    right, left = chi2_tails(delta, df)
+    return CheckResult(name=p0.get("name", "serial overlapping"), statistic=delta, p_value=right, p_left=left,
+                       null=f"chi2(df={df})", n=n, details={"psi2_d": s_d, "psi2_d_minus_1": s_d1})
 
 
 # --------------------------------------------------------------------------- registry
@@ -198,7 +221,7 @@ def _serial_overlapping_defaults(n: int) -> list[dict]:
 
 
 register(CheckSpec(
-    key="serial", family="classic", title="serial test on non-overlapping d-tuples", view="uniforms",
+    key="serial", family="classic", windows=("reversed",), title="serial test on non-overlapping d-tuples", view="uniforms",
     kind="continuous", func=check_serial, values_needed=lambda p: int(p["n"]),
     default_params=_serial_defaults, both_tails=True, source=f"{KNUTH} B",
     notes="d = 2, 3; v = largest power of two with >= 10 tuples per cell, <= 2^20 cells",
@@ -208,7 +231,7 @@ register(CheckSpec(
     key="serial overlapping", family="classic",
     title="serial test on overlapping d-tuples (first difference of psi-square)", view="uniforms",
     kind="continuous", func=check_serial_overlapping, values_needed=lambda p: int(p["n"]),
-    default_params=_serial_overlapping_defaults, both_tails=True,
+    default_params=_serial_overlapping_defaults, both_tails=True, pool=pool_first_difference,
     source=f"Good (1953) J. Roy. Statist. Soc. B 15; {KNUTH} B; NIST SP 800-22 Rev. 1a §2.11 (bits)",
     notes="d = 2, 3, 4; v = largest power of two with >= 10 tuples per cell, <= 2^20 cells",
 ))

@@ -74,3 +74,59 @@ register(CheckSpec(
     notes="resolution inferred from the data: 16 or 32 bits when every value lies on that grid, else 53",
     extra={"resolution_param": "resolution_bits"},
 ))
+
+
+# --------------------------------------------------------------------------- effective resolution
+
+
+def check_fraction_grid(data: np.ndarray, resolution_bits: int = 53, n: int | None = None) -> CheckResult:
+    """The grid the values actually lie on: the largest r with every value a multiple of 2^-r.
+
+    H0: i.i.d. uniforms on the claimed grid 2^-c (c = ``resolution_bits``). Then each value is a multiple
+    of 2^-r (r < c) with probability 2^-(c - r), so P(all n are) = 2^(-n (c - r)) exactly. One bit short of
+    the claim is allowed (tolerance t = c - 1): doubles made from a 52-bit mantissa ("[1, 2) minus 1") are
+    a common, sound construction and are named in the details, not failed; the p-value is
+    2^(-n (t - r)) for r < t, else 1 (conservative). A stream on a coarser grid (a 48-bit generator's
+    fractions as ``<f8``, float32 values as ``<f8``) fails here once; the word and bit views then take only
+    the bits the values carry (:mod:`rngassay.intake.views`), so the same grid is not failed again.
+    Discrete; pooled over replicates as the smallest r over all values.
+    """
+    from rngassay.intake.views import fraction_grid_bits
+
+    u = uniforms(data, n, "fraction grid")
+    need(u.size, 2, "fraction grid")
+    c = int(resolution_bits)
+    if not 1 <= c <= 53:
+        raise ValueError(f"fraction grid: resolution_bits must be in 1..53, got {resolution_bits}")
+    r = fraction_grid_bits(u, c)
+    return _grid_result(r, int(u.size), c)
+
+
+def _grid_result(r: int, m: int, c: int) -> CheckResult:
+    t = c - 1
+    log2p = -float(m) * (t - r) if r < t else 0.0
+    p = max(2.0**log2p, 1e-300) if log2p > -996 else 1e-300
+    note = ("every value on the claimed grid" if r >= c else
+            f"{r}-bit values (a {r}-bit mantissa construction): a note, not a failure" if r == t else
+            f"every value lies on a 2^-{r} grid although the format claims 2^-{c}")
+    return CheckResult(
+        name="fraction grid", statistic=float(r), p_value=p, null=f"P(all on a 2^-r grid) = 2^(-n ({t} - r)), r < {t}",
+        kind="discrete", n=m, pooled={"r": r, "n": m, "claimed": c},
+        details={"grid": f"2^-{r}", "claimed": f"2^-{c}", "bits": r, "note": note},
+    )
+
+
+def pool_fraction_grid(pooled: list[dict]) -> CheckResult:
+    """All replicates at once: the smallest grid exponent over all values, and all values counted."""
+    c = int(pooled[0]["claimed"])
+    return _grid_result(min(int(p["r"]) for p in pooled), sum(int(p["n"]) for p in pooled), c)
+
+
+register(CheckSpec(
+    key="fraction grid", family="transform", title="effective resolution: the grid the values lie on",
+    view="uniforms", kind="discrete", func=check_fraction_grid, values_needed=lambda p: int(p["n"]),
+    default_params=lambda n: [{"n": n}] if n >= 64 else [],
+    source="exact law: P(n i.i.d. values on the 2^-c grid all lie on the 2^-r grid) = 2^(-n (c - r))",
+    notes="one bit short of the claimed grid (52-bit doubles) is named, not failed",
+    extra={"resolution_param": "resolution_bits", "cheap": True}, pool=pool_fraction_grid,
+))
