@@ -20,9 +20,10 @@ NAMES = list(GENERATORS)
 def test_catalogue_names_are_the_cli_contract():
     # names fixed by the CLI contract (design brief)
     assert set(GENERATORS) == {"pcg64", "philox", "sfc64", "shake256", "mt19937", "randu", "minstd",
-                               "lcg32", "xorshift32", "biased", "short-period"}
+                               "lcg32", "xorshift32", "biased", "short-period", "lcg48", "lcg48-doubles",
+                               "xorshift128-doubles", "mt19937-doubles", "lagfib", "splitmix64"}
     sound = {n for n, info in GENERATORS.items() if info.quality == "sound"}
-    assert sound == {"pcg64", "philox", "sfc64", "shake256"}
+    assert sound == {"pcg64", "philox", "sfc64", "shake256", "splitmix64"}
     assert GENERATORS["mt19937"].default_seed == 5489
     assert GENERATORS["minstd"].default_seed == 1
 

@@ -1,10 +1,14 @@
 """Reference generators, sound and flawed, each an endless byte stream citing its published definition.
 
 ``make_generator(name, seed)`` builds one by its CLI name; ``GENERATORS`` describes them all.
-Word generators emit little-endian words (``<u8`` for pcg64, philox, sfc64, short-period;
-``<u4`` for mt19937, randu, minstd, lcg32, xorshift32); shake256 and biased are byte-oriented.
+Word generators emit little-endian words (``<u8`` for pcg64, philox, sfc64, short-period,
+splitmix64; ``<u4`` for mt19937, randu, minstd, lcg32, xorshift32, lcg48, lagfib); the doubles
+generators (lcg48-doubles, xorshift128-doubles, mt19937-doubles) emit ``<f8`` values in [0, 1);
+shake256 and biased are byte-oriented. ``GeneratorInfo.default_format`` names the format a stream
+is meant to be read in when it is not the default one (the doubles generators: ``<f8``).
 Seeds are integers in ``[0, 2**64 - 1]``; how each generator turns a seed into its state is in
-the class docstring (some map several seeds to one state: see randu, minstd, lcg32, xorshift32, mt19937).
+the class docstring (some map several seeds to one state: see randu, minstd, lcg32, xorshift32,
+mt19937, lcg48, lcg48-doubles).
 """
 
 from __future__ import annotations
@@ -18,9 +22,13 @@ from rngassay.generators._common import MAX_SEED, check_seed
 from rngassay.generators.base import ByteStreamGenerator
 from rngassay.generators.biased import BIASED_P_ONE, BiasedBitsStream
 from rngassay.generators.classic import Lcg32Stream, MinstdStream, RanduStream, Xorshift32Stream
+from rngassay.generators.doubles import MT19937DoublesStream, Xorshift128DoublesStream
+from rngassay.generators.lagfib import LagFibStream
+from rngassay.generators.lcg48 import Lcg48DoublesStream, Lcg48Stream
 from rngassay.generators.numpy_words import MT19937Stream, PCG64Stream, PhiloxStream, SFC64Stream
 from rngassay.generators.shake import Shake256Stream, shake256_block
 from rngassay.generators.short_period import SHORT_PERIOD_BYTES, ShortPeriodStream
+from rngassay.generators.splitmix import SplitMix64Stream
 
 __all__ = [
     "BIASED_P_ONE",
@@ -30,7 +38,11 @@ __all__ = [
     "BiasedBitsStream",
     "ByteStreamGenerator",
     "GeneratorInfo",
+    "LagFibStream",
     "Lcg32Stream",
+    "Lcg48DoublesStream",
+    "Lcg48Stream",
+    "MT19937DoublesStream",
     "MT19937Stream",
     "MinstdStream",
     "PCG64Stream",
@@ -39,6 +51,8 @@ __all__ = [
     "SFC64Stream",
     "Shake256Stream",
     "ShortPeriodStream",
+    "SplitMix64Stream",
+    "Xorshift128DoublesStream",
     "Xorshift32Stream",
     "make_generator",
     "shake256_block",
@@ -56,6 +70,9 @@ class GeneratorInfo:
     default_seed: int
     word_bytes: int  # natural output word size: 8, 4, or 1 for byte-oriented streams
     factory: Callable[[int], ByteStreamGenerator]
+    #: the --format the stream is meant to be read in when the user gives none; None keeps the
+    #: usual default
+    default_format: str | None = None
 
 
 _INFOS = [
@@ -83,11 +100,23 @@ _INFOS = [
         "Functions; counter-mode construction documented in rngassay.generators.shake",
         0, 1, Shake256Stream),
     GeneratorInfo(
+        "splitmix64", "sound",
+        "SplitMix64: Weyl sequence with gamma 0x9E3779B97F4A7C15 and a bijective mix, 64-bit words",
+        "G. L. Steele Jr., D. Lea, C. H. Flood (2014), Fast splittable pseudorandom number "
+        "generators, Proc. OOPSLA 2014 (ACM SIGPLAN Notices 49(10) 453-472)",
+        0, 8, SplitMix64Stream),
+    GeneratorInfo(
         "mt19937", "flawed",
         "32-bit Mersenne Twister, init_genrand seeding; GF(2)-linear, 32-bit words",
         "M. Matsumoto, T. Nishimura (1998), Mersenne Twister: a 623-dimensionally equidistributed "
         "uniform pseudo-random number generator, ACM TOMACS 8(1) 3-30; ISO/IEC 14882 [rand.predef] mt19937",
         5489, 4, MT19937Stream),
+    GeneratorInfo(
+        "mt19937-doubles", "flawed",
+        "32-bit Mersenne Twister, init_genrand seeding, 53-bit doubles by genrand_res53 (<f8)",
+        "M. Matsumoto, T. Nishimura (1998), Mersenne Twister: a 623-dimensionally equidistributed "
+        "uniform pseudo-random number generator, ACM TOMACS 8(1) 3-30; genrand_res53 of mt19937ar.c (2002)",
+        5489, 8, MT19937DoublesStream, "<f8"),
     GeneratorInfo(
         "randu", "flawed",
         "IBM RANDU x <- 65539 x mod 2**31; triples on 15 planes, 32-bit words",
@@ -107,10 +136,33 @@ _INFOS = [
         "Numerical Recipes in C, 2nd ed., section 7.1",
         0, 4, Lcg32Stream),
     GeneratorInfo(
+        "lcg48", "flawed",
+        "drand48 LCG x <- 0x5DEECE66D x + 0xB mod 2**48, bits 47..16 as 32-bit words",
+        "The Open Group Base Specifications (POSIX.1-2017), drand48 family (a = 0x5DEECE66D, "
+        "c = 0xB, m = 2**48); seed scrambling of java.util.Random.setSeed (Java SE API specification)",
+        0, 4, Lcg48Stream),
+    GeneratorInfo(
+        "lcg48-doubles", "flawed",
+        "drand48: the same LCG's state / 2**48 as doubles on a 48-bit grid (<f8), srand48 seeding",
+        "The Open Group Base Specifications (POSIX.1-2017), drand48 and srand48",
+        0, 8, Lcg48DoublesStream, "<f8"),
+    GeneratorInfo(
         "xorshift32", "flawed",
         "Marsaglia xorshift on 32 bits, shifts (13, 17, 5); GF(2)-linear, 32-bit words",
         "G. Marsaglia (2003), Xorshift RNGs, Journal of Statistical Software 8(14)",
         2463534242, 4, Xorshift32Stream),
+    GeneratorInfo(
+        "xorshift128-doubles", "flawed",
+        "Marsaglia xor128 (128-bit state), GF(2)-linear, 53-bit doubles by genrand_res53 (<f8)",
+        "G. Marsaglia (2003), Xorshift RNGs, Journal of Statistical Software 8(14), xor128; "
+        "doubles by genrand_res53 of mt19937ar.c (M. Matsumoto, T. Nishimura, 2002)",
+        0, 8, Xorshift128DoublesStream, "<f8"),
+    GeneratorInfo(
+        "lagfib", "flawed",
+        "additive lagged Fibonacci x_n = x_(n-5) + x_(n-17) mod 2**32, 32-bit words",
+        "D. E. Knuth, The Art of Computer Programming vol. 2, 3rd ed., section 3.2.2 (additive "
+        "lagged-Fibonacci generators, after G. J. Mitchell and D. P. Moore, unpublished, 1958)",
+        0, 4, LagFibStream),
     GeneratorInfo(
         "biased", "flawed",
         "independent bits with P(1) = 1/2 + 1/1024 (fair PCG64 bit OR Bernoulli(1/512))",
