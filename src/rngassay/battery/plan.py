@@ -185,8 +185,11 @@ def make_plan(
         param_sets = [p for p in param_sets] + [{**p, "window": w} for w in wins for p in param_sets]
         for params in param_sets:
             rp = spec.extra.get("resolution_param")
-            if rp and spec.view == "uniforms":  # tell resolution-aware checks the grid the input claims
-                params = {**params, rp: views.claimed_bits(fmt)}
+            if rp and spec.view == "uniforms":
+                # the grid check judges the grid the input claims; the other resolution-aware checks the grid
+                # the values were found on (when read whole), so that a coarse grid fails once, not in each
+                bits = views.claimed_bits(fmt) if spec.extra.get("judges_grid") else views.float_bits(fmt)
+                params = {**params, rp: bits}
             cid = display_id(key, params)
             if checks and not _matches(spec, cid, checks):
                 continue

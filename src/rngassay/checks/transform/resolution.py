@@ -53,6 +53,10 @@ def check_float_resolution(data: np.ndarray, resolution_bits: int | None = None,
     u = uniforms(data, n, "float resolution")
     need(u.size, 2, "float resolution")
     b, inferred = resolve_bits(u, resolution_bits)
+    if not inferred:  # a grid coarser than the given one is the fraction grid check's finding, not this one's
+        from rngassay.intake.views import fraction_grid_bits
+
+        b = min(b, max(1, fraction_grid_bits(u, b)))
     c = count_repeats(u)
     m = int(u.size)
     mu = expected_repeats(m, b)
@@ -128,5 +132,5 @@ register(CheckSpec(
     default_params=lambda n: [{"n": n}] if n >= 64 else [],
     source="exact law: P(n i.i.d. values on the 2^-c grid all lie on the 2^-r grid) = 2^(-n (c - r))",
     notes="one bit short of the claimed grid (52-bit doubles) is named, not failed",
-    extra={"resolution_param": "resolution_bits", "cheap": True}, pool=pool_fraction_grid,
+    extra={"resolution_param": "resolution_bits", "judges_grid": True, "cheap": True}, pool=pool_fraction_grid,
 ))
