@@ -2,7 +2,15 @@
 
 Second level (one p-value per check and round)
 ---------------------------------------------
-Each check ran on ``R`` disjoint segments. Its round p-value is the Bonferroni minimum of:
+Each check ran on ``R`` disjoint segments. Where the check reports additive sufficient statistics
+(``pooled``: cell counts, z statistics, Poisson or binomial counts, or a ``pool`` function of its own), they
+are pooled over the replicates and tested once, as if the check had seen all the data at once (a steady
+small deviation across R replicates is then found with the power of the whole sample; summing replicate
+chi-squares would let the degrees of freedom grow with R). The round p-value is then the Bonferroni
+minimum of that pooled p-value, the Šidák-corrected smallest replicate p-value and, for continuous
+statistics, the Kolmogorov–Smirnov test of the replicate p-values (do the replicates agree?).
+
+Checks without pooled quantities keep the earlier rule, the Bonferroni minimum of:
 
 - continuous statistics: (a) Kolmogorov–Smirnov test of the ``R`` first-level p-values against uniform
   (catches p-values piling up near 0 *or* near 1, i.e. too-good fits; KS rather than Anderson–Darling
@@ -112,6 +120,12 @@ def second_level(outcome: Outcome) -> RoundResult | None:
         # found as if the check had seen all the data at once
         parts["pooled"] = sufficient
         candidates.append(sufficient["p_value"])
+        if continuous and R >= 2:
+            # still asks whether the replicates agree with each other (a flaw that changes sign between
+            # segments cancels in the pooled table; replicate p-values piling up near 1 mean "too good")
+            d, p_ks = stats.ks_uniform(np.asarray(per_rep))
+            parts["uniformity"] = {"method": "kolmogorov-smirnov", "statistic": float(d), "p_value": float(p_ks)}
+            candidates.append(p_ks)
     elif continuous and not multi:
         if R >= 2:
             d, p_ks = stats.ks_uniform(np.asarray(per_rep))

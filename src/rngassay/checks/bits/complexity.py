@@ -20,6 +20,7 @@ from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
 
 from ._common import as_packed, as_words32, check_lanes, chi2_counts, clip_p, igamc, lanes_u64, popcount64, to_u64
+from .frequency import pool_class_counts
 
 SP800_22 = "NIST SP 800-22 Rev. 1a (2010)"
 
@@ -161,7 +162,8 @@ def _lc_probs(probabilities: str | Sequence[float], M: int) -> np.ndarray:
     return p
 
 
-def _lc_result(name: str, Ls: np.ndarray, M: int, probs: np.ndarray, n: int, extra: dict) -> CheckResult:
+def _lc_result(name: str, Ls: np.ndarray, M: int, probs: np.ndarray, n: int, extra: dict,
+               pool_probs: np.ndarray | None = None) -> CheckResult:
     t = _t_values(Ls, M)
     counts = np.bincount(np.digitize(t, _T_EDGES, right=True), minlength=7)
     chi2, expected = chi2_counts(counts, probs)
@@ -170,6 +172,11 @@ def _lc_result(name: str, Ls: np.ndarray, M: int, probs: np.ndarray, n: int, ext
         kind="continuous", n=n,
         details={"M": M, "blocks": int(Ls.size), "counts": counts.tolist(), "expected": expected.tolist(),
                  "min_L": int(Ls.min()), "mean_L": float(Ls.mean()), **extra},
+        # disjoint blocks: the replicates' T-class counts add up to the counts of all their blocks; tested
+        # against ``pool_probs`` (the exact law when the check used the printed table, whose pi_0 = 0.01047
+        # against 1/96 would bias a chi-square over many pooled blocks: noncentrality 2.7e-7 per block)
+        pooled={"counts": counts, "probs": probs if pool_probs is None else pool_probs, "df": 6, "n": n,
+                "name": name},
     )
 
 
@@ -190,7 +197,12 @@ def linear_complexity(packed: np.ndarray, n_bits: int | None = None, M: int = 50
         raise InputError(f"linear complexity: need at least one block of M={M} bits, have {n}")
     probs = _lc_probs(probabilities, M)
     Ls = _bm_blocks(to_u64(packed, N * M), 0, M, N)
-    return _lc_result("linear complexity", Ls, M, probs, N * M, {})
+    return _lc_result("linear complexity", Ls, M, probs, N * M, {}, _pool_probs(probabilities, M, probs))
+
+
+def _pool_probs(probabilities: str | Sequence[float], M: int, probs: np.ndarray) -> np.ndarray:
+    """Class probabilities for the pooled test: the exact law in place of the printed table."""
+    return lc_class_probs_exact(M) if isinstance(probabilities, str) and probabilities == "printed" else probs
 
 
 def _left_tail_min_log10(min_l: int, M: int, blocks: int) -> float:
@@ -240,7 +252,8 @@ def linear_complexity_lanes(words: np.ndarray, n_words: int | None = None, M: in
         per_lane[str(k)] = {"min_L": int(row.min()), "max_L": int(row.max()),
                             "p_low": clip_p(10.0**lg), "log10_p_low": lg}
     return _lc_result("linear complexity lanes", all_L.reshape(-1), M, probs, N * M,
-                      {"lanes": lanes_list, "blocks_per_lane": N, "per_lane": per_lane})
+                      {"lanes": lanes_list, "blocks_per_lane": N, "per_lane": per_lane},
+                      _pool_probs(probabilities, M, probs))
 
 
 # --------------------------------------------------------------------------- registry
@@ -260,7 +273,7 @@ def _lc_defaults(n: int) -> list[dict]:
 register(CheckSpec(
     key="linear complexity", family="bits", title="linear complexity test", view="bits",
     kind="continuous", func=linear_complexity, values_needed=lambda p: int(p["n_bits"]),
-    default_params=_lc_defaults, source=f"Massey (1969); {SP800_22} §2.10",
+    default_params=_lc_defaults, source=f"Massey (1969); {SP800_22} §2.10", pool=pool_class_counts,
     extra={"max_replicates": 4},  # about 0.15 s per replicate: 4 replicates are plenty
 ))
 
@@ -277,10 +290,11 @@ def _lc_lane_defaults(nw: int) -> list[dict]:
 
 
 register(CheckSpec(
-    key="linear complexity lanes", family="bits",
+    key="linear complexity lanes", family="bits", windows=("fraction-tail",),
     title="linear complexity test per bit lane of 32-bit words", view="words32", kind="continuous",
     func=linear_complexity_lanes, values_needed=lambda p: int(p["n_words"]),
     default_params=_lc_lane_defaults, source=f"{SP800_22} §2.10 applied to bit lanes",
+    pool=pool_class_counts,  # one table per replicate (all lanes' blocks); per-lane minima not pooled
     extra={"max_replicates": 2},  # about 3 s per replicate
 ))
 
@@ -327,7 +341,7 @@ def _lc_lane_min_defaults(nw: int) -> list[dict]:
 
 
 register(CheckSpec(
-    key="linear complexity lanes minimum", family="bits",
+    key="linear complexity lanes minimum", family="bits", windows=("fraction-tail",),
     title="smallest linear complexity over the bit lanes of 32-bit words", view="words32", kind="discrete",
     func=linear_complexity_lanes_minimum, values_needed=lambda p: int(p["n_words"]),
     default_params=_lc_lane_min_defaults, source=f"{SP800_22} §2.10 and §3.10 (exact law of L), per bit lane",

@@ -17,7 +17,9 @@ from rngassay.checks.registry import CheckSpec, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
 
-from ._common import as_packed, block_ones, byte_histogram, clip_p, count_ones, erfc_p, igamc, need, to_u64
+from ._common import (
+    as_packed, block_ones, byte_histogram, chi2_counts, clip_p, count_ones, erfc_p, igamc, need, to_u64,
+)
 
 SP800_22 = "NIST SP 800-22 Rev. 1a (2010)"
 
@@ -36,6 +38,50 @@ def monobit_frequency(packed: np.ndarray, n_bits: int | None = None) -> CheckRes
     return CheckResult(
         name="monobit frequency", statistic=s_obs, p_value=erfc_p(s_obs),
         null="|N(0,1)|", kind="continuous", n=n, details={"ones": ones, "sum": s},
+        pooled={"z": s / math.sqrt(n), "sum": s, "n": n},
+    )
+
+
+def pool_monobit(pooled: list[dict]) -> CheckResult:
+    """Monobit on all the replicates' bits at once: S = sum of the replicates' S, n = sum of their n.
+
+    The walk sums add up exactly, so |S| / sqrt(n) is the statistic of the concatenated segments
+    (for equal n it is |sum z| / sqrt(R)); two-sided p = erfc(|S| / sqrt(2n)) as for one segment.
+    """
+    s = sum(int(p["sum"]) for p in pooled)
+    n = sum(int(p["n"]) for p in pooled)
+    if n < 1:
+        raise ValueError("monobit pooling: no bits")
+    s_obs = abs(s) / math.sqrt(n)
+    return CheckResult(name="monobit frequency", statistic=s_obs, p_value=erfc_p(s_obs),
+                       null="|N(0,1)|", kind="continuous", n=n, details={"sum": s, "replicates": len(pooled)})
+
+
+def pool_class_counts(pooled: list[dict]) -> CheckResult:
+    """A class-count check's own Pearson chi-square on its replicates' class counts added up.
+
+    Each replicate gives ``{"counts", "probs" (absent: equal classes), "df", "name"}``.  The classes
+    are disjoint blocks, matrices or symbols, so the summed counts are the counts of all the blocks
+    at once and the statistic is the check's, chi-square with the same ``df`` (they do not grow).
+    Right tail in ``p_value``, left tail (too even a spread) in ``p_left``.
+    """
+    p0 = pooled[0]
+    df = int(p0["df"])
+    counts = np.sum([np.asarray(p["counts"], dtype=np.int64) for p in pooled], axis=0)
+    probs = (np.full(counts.size, 1.0 / counts.size) if p0.get("probs") is None
+             else np.asarray(p0["probs"], dtype=np.float64))
+    for p in pooled:
+        q = p.get("probs")
+        same = (q is None) if p0.get("probs") is None else (q is not None and np.array_equal(np.asarray(q), probs))
+        if int(p["df"]) != df or not same or np.asarray(p["counts"]).shape != counts.shape:
+            raise ValueError("replicates with different classes cannot be pooled")
+    chi2, expected = chi2_counts(counts, probs)
+    return CheckResult(
+        name=str(p0.get("name", "class counts")), statistic=chi2, p_value=igamc(df / 2.0, chi2 / 2.0),
+        p_left=clip_p(special.gammainc(df / 2.0, max(chi2, 0.0) / 2.0)), null=f"chi2(df={df})",
+        kind="continuous", n=sum(int(p.get("n", 0)) for p in pooled),
+        details={"counts": counts.tolist() if counts.size <= 256 else None,
+                 "expected": expected.tolist() if counts.size <= 256 else None, "replicates": len(pooled)},
     )
 
 
@@ -59,6 +105,8 @@ def block_frequency(packed: np.ndarray, n_bits: int | None = None, M: int = 128)
     return CheckResult(
         name="block frequency", statistic=chi2, p_value=igamc(N / 2.0, chi2 / 2.0),
         null=f"chi2(df={N})", kind="continuous", n=N * M, details={"M": M, "blocks": N},
+        # a sum over disjoint blocks: the replicates' sums are the statistic over all their blocks
+        pooled={"statistic": chi2, "df": N},
     )
 
 
@@ -170,6 +218,34 @@ def cumulative_sums(packed: np.ndarray, n_bits: int | None = None,
         name="cumulative sums", statistic=float(z), p_value=cusum_p_value(int(z), n),
         null="max |walk| of a fair-coin walk", kind="continuous", n=n,
         details={"direction": direction, "z": int(z), "final_sum": int(s)},
+        pooled={"sum": int(s), "max": int(hi), "min": int(lo), "n": n, "direction": direction},
+    )
+
+
+def pool_cumulative_sums(pooled: list[dict]) -> CheckResult:
+    """Cumulative sums on the replicates' segments joined end to end, in replicate order.
+
+    Each replicate gives its walk's final sum S and extremes max S_k, min S_k (k = 0..n, S_0 = 0);
+    the joined walk's extremes follow exactly (offset each segment by the sums before it), so the
+    statistic is the check's on all the replicates' bits at once, with the same exact-limit tail for
+    n = sum of the n.  Under H0 the joined segments are one fair-coin sequence.
+    """
+    direction = pooled[0]["direction"]
+    if any(p["direction"] != direction for p in pooled):
+        raise ValueError("cumulative sums replicates in different directions cannot be pooled")
+    offset = hi = lo = n = 0
+    for p in pooled:
+        hi = max(hi, offset + int(p["max"]))
+        lo = min(lo, offset + int(p["min"]))
+        offset += int(p["sum"])
+        n += int(p["n"])
+    if n < 1:
+        raise ValueError("cumulative sums pooling: no bits")
+    z = max(hi, -lo) if direction == "forward" else max(offset - lo, hi - offset)
+    return CheckResult(
+        name="cumulative sums", statistic=float(z), p_value=cusum_p_value(int(z), n),
+        null="max |walk| of a fair-coin walk", kind="continuous", n=n,
+        details={"direction": direction, "z": int(z), "final_sum": int(offset), "replicates": len(pooled)},
     )
 
 
@@ -216,6 +292,7 @@ def poker_symbols(packed: np.ndarray, n_bits: int | None = None, m: int = 4) -> 
         name="poker", statistic=x, p_value=clip_p(stats.chi2.sf(x, df)),
         p_left=clip_p(stats.chi2.cdf(x, df)), null=f"chi2(df={df})", kind="continuous",
         n=k * m, details={"m": m, "symbols": k, "counts": counts.tolist() if m <= 8 else None},
+        pooled={"counts": counts, "df": df, "n": k * m, "name": "poker"},
     )
 
 
@@ -230,7 +307,7 @@ register(CheckSpec(
     key="monobit frequency", family="bits", title="frequency (monobit) test", view="bits",
     kind="continuous", func=monobit_frequency, values_needed=_n,
     default_params=lambda n: [{"n_bits": n}] if n >= 100 else [],
-    source=f"{SP800_22} §2.1",
+    source=f"{SP800_22} §2.1", pool=pool_monobit,
     extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
 ))
 
@@ -255,7 +332,7 @@ register(CheckSpec(
     kind="continuous", func=cumulative_sums, values_needed=_n,
     default_params=lambda n: ([{"n_bits": n, "direction": "forward"},
                                {"n_bits": n, "direction": "backward"}] if n >= 100 else []),
-    source=f"{SP800_22} §2.13",
+    source=f"{SP800_22} §2.13", pool=pool_cumulative_sums,
     notes="two registered variants: direction=forward and direction=backward",
 ))
 
@@ -273,5 +350,6 @@ register(CheckSpec(
     key="poker bit symbols", family="bits", title="poker test on m-bit symbols", view="bits",
     kind="continuous", func=poker_symbols, values_needed=_n, default_params=_poker_defaults,
     both_tails=True, source="FIPS 140-2 (2001) §4.9.1 (m = 4); Pearson chi-square on m-bit symbols",
+    pool=pool_class_counts,
     extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
 ))

@@ -19,6 +19,7 @@ from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
 
 from ._common import as_packed, as_words32, check_lanes, chi2_counts, clip_p, clz64, lanes_u64, to_u64
+from .frequency import pool_class_counts
 
 SP800_22 = "NIST SP 800-22 Rev. 1a (2010)"
 
@@ -115,6 +116,8 @@ def _rank_result(name: str, ranks: np.ndarray, M: int, Q: int, n: int, extra: di
         kind="continuous", n=n,
         details={"M": M, "Q": Q, "matrices": int(ranks.size), "counts": counts.tolist(),
                  "expected": expected.tolist(), "min_rank": int(ranks.min()), **extra},
+        # disjoint matrices: the replicates' class counts add up to the counts of all their matrices
+        pooled={"counts": counts, "probs": probs, "df": 2, "n": n, "name": name},
     )
 
 
@@ -191,6 +194,7 @@ register(CheckSpec(
     key="binary matrix rank", family="bits", title="binary matrix rank test", view="bits",
     kind="continuous", func=binary_matrix_rank, values_needed=lambda p: int(p["n_bits"]),
     default_params=_rank_defaults, source=f"{SP800_22} §2.5, §3.5",
+    pool=pool_class_counts,
     extra={"max_replicates": 8},  # costly per byte: 8 replicates are plenty
 ))
 
@@ -205,9 +209,10 @@ def _rank_lane_defaults(nw: int) -> list[dict]:
 
 
 register(CheckSpec(
-    key="binary matrix rank lanes", family="bits",
+    key="binary matrix rank lanes", family="bits", windows=("fraction-tail",),
     title="binary matrix rank test per bit lane of 32-bit words", view="words32", kind="continuous",
     func=binary_matrix_rank_lanes, values_needed=lambda p: int(p["n_words"]),
     default_params=_rank_lane_defaults, source=f"{SP800_22} §2.5 applied to bit lanes",
+    pool=pool_class_counts,  # one table per replicate (all lanes' matrices); per-lane counts not pooled
     extra={"max_replicates": 8},  # costly per byte: 8 replicates are plenty
 ))

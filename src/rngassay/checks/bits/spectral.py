@@ -45,6 +45,31 @@ def spectral_dft(packed: np.ndarray, n_bits: int | None = None) -> CheckResult:
     return CheckResult(
         name="spectral dft", statistic=d, p_value=erfc_p(d), null="N(0,1), two-sided",
         kind="continuous", n=n, details={"below_threshold": n1, "expected": n0, "threshold": t},
+        pooled={"z": d, "below_threshold": n1, "n": n},
+    )
+
+
+def pool_spectral(pooled: list[dict]) -> CheckResult:
+    """Spectral check on all the replicates: the peak counts N1 and the lengths n add up.
+
+    Pooled: N1 = sum of the replicates' counts of moduli below their thresholds, n = sum of their n.
+    Under the check's own null each N1_i is N(0.95 n_i / 2, n_i 0.95 0.05 / 4) (the Rev. 1a variance)
+    and the replicates are independent, so N1 is N(0.95 n / 2, n 0.95 0.05 / 4) with the summed n:
+    d = (N1 - 0.95 n / 2) / sqrt(n 0.95 0.05 / 4), two-sided p = erfc(|d| / sqrt 2).  For equal n_i
+    this is sum d_i / sqrt(R).  Not the count of one DFT over the joined bits (each replicate has its
+    own transform and threshold), but the same law with the pooled mean and variance; the variance
+    is the check's own, so its calibration is the single segment's (a relative error in the variance
+    carries over unchanged, it does not grow with R).
+    """
+    n1 = sum(int(p["below_threshold"]) for p in pooled)
+    n = sum(int(p["n"]) for p in pooled)
+    if n < 2:
+        raise ValueError("spectral pooling: no bits")
+    n0 = 0.95 * n / 2.0
+    d = (n1 - n0) / math.sqrt(n * 0.95 * 0.05 / 4.0)
+    return CheckResult(
+        name="spectral dft", statistic=d, p_value=erfc_p(d), null="N(0,1), two-sided",
+        kind="continuous", n=n, details={"below_threshold": n1, "expected": n0, "replicates": len(pooled)},
     )
 
 
@@ -52,6 +77,6 @@ register(CheckSpec(
     key="spectral dft", family="bits", title="discrete Fourier transform (spectral) test",
     view="bits", kind="continuous", func=spectral_dft, values_needed=lambda p: int(p["n_bits"]),
     default_params=lambda n: [{"n_bits": min(n, SPECTRAL_MAX_BITS)}] if n >= 1000 else [],
-    source=f"{SP800_22} §2.6",
+    source=f"{SP800_22} §2.6", pool=pool_spectral,
     extra={"max_replicates": 4},  # costly per byte: 4 replicates are plenty
 ))

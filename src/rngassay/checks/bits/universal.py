@@ -77,6 +77,34 @@ def universal_maurer(packed: np.ndarray, n_bits: int | None = None, L: int = 7,
     return CheckResult(
         name="universal maurer", statistic=fn, p_value=erfc_p(z), null=f"N({EXPECTED[L]}, {sigma:.4g}^2)",
         kind="continuous", n=(Q + K) * L, details={"L": L, "Q": Q, "K": K, "z": z},
+        pooled={"z": z, "total": total, "K": K, "L": L, "var": (K * sigma) ** 2, "n": (Q + K) * L},
+    )
+
+
+def pool_universal(pooled: list[dict]) -> CheckResult:
+    """Maurer's statistic over all the replicates' test blocks: the sums of log2 distances add up.
+
+    Under the check's own null each replicate's sum T_i = K_i f_i is N(K_i E_L, (K_i sigma_i)^2), with
+    sigma_i = c(K_i) sqrt(Var_L / K_i) (c corrects for the dependence between a segment's distances);
+    the replicates are independent, so z = sum (T_i - K_i E_L) / sqrt(sum (K_i sigma_i)^2) is N(0,1)
+    (for equal K_i it is sum z_i / sqrt(R)); two-sided p.  The statistic shown is f = sum T_i / sum K_i.
+    Each replicate keeps its own Q initialisation blocks, so this is not literally the statistic of the
+    joined bits (which would initialise once), but the linear statistic of all the test blocks.
+    """
+    L = int(pooled[0]["L"])
+    if any(int(p["L"]) != L for p in pooled):
+        raise ValueError("universal maurer replicates with different L cannot be pooled")
+    total = math.fsum(float(p["total"]) for p in pooled)
+    K = sum(int(p["K"]) for p in pooled)
+    var = math.fsum(float(p["var"]) for p in pooled)
+    if K < 1 or not var > 0.0:
+        raise ValueError("universal maurer pooling: no test blocks")
+    z = (total - K * EXPECTED[L]) / math.sqrt(var)
+    sigma = math.sqrt(var) / K
+    return CheckResult(
+        name="universal maurer", statistic=total / K, p_value=erfc_p(z), null=f"N({EXPECTED[L]}, {sigma:.4g}^2)",
+        kind="continuous", n=sum(int(p["n"]) for p in pooled),
+        details={"L": L, "K": K, "z": z, "replicates": len(pooled)},
     )
 
 
@@ -94,5 +122,5 @@ def _universal_defaults(n: int) -> list[dict]:
 register(CheckSpec(
     key="universal maurer", family="bits", title="Maurer's universal statistical test", view="bits",
     kind="continuous", func=universal_maurer, values_needed=lambda p: int(p["n_bits"]),
-    default_params=_universal_defaults, source=f"Maurer (1992); {SP800_22} §2.9",
+    default_params=_universal_defaults, source=f"Maurer (1992); {SP800_22} §2.9", pool=pool_universal,
 ))
