@@ -85,10 +85,10 @@ def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[Che
     window = params.pop("window", None)
     if window == "fraction-tail":
         words, lane_bits = cache.get(pc.view, window=window)
-        if "lanes" in _parameters(spec.func):
-            params["lanes"] = list(range(lane_bits))
-        else:
+        if "lane_bits" in _parameters(spec.func):
             params["lane_bits"] = lane_bits
+        else:
+            params["lanes"] = list(range(lane_bits))
         res = spec.func(words[:need], **params)
     elif window is not None:
         res = spec.func(cache.get(pc.view, window=window)[:need], **params)

@@ -241,10 +241,11 @@ def test_registry_entries():
                 "binary matrix rank", "spectral dft", "non-overlapping template", "overlapping template",
                 "universal maurer", "linear complexity", "serial psi2", "approximate entropy",
                 "cumulative sums", "random excursions", "random excursions variant", "poker bit symbols",
-                "linear complexity lanes", "binary matrix rank lanes", "linear complexity lanes minimum"}
+                "linear complexity lanes", "binary matrix rank lanes", "linear complexity lanes minimum",
+                "hamming weight dependency", "spectral dft lanes", "linear complexity long lanes"}
     assert set(reg) == expected
     for key, spec in reg.items():
-        assert spec.view in ("bits", "words32")
+        assert spec.view in ("bits", "words32", "words64")
         size_key = "n_bits" if spec.view == "bits" else "n_words"
         for n in (10**5, 10**6, 3 * 10**7):
             for params in spec.default_params(n):
