@@ -162,6 +162,8 @@ def make_plan(
             continue
         if fmt.kind == "text-integers" and spec.family != "categorical":
             continue
+        if spec.extra.get("judges_grid") and fmt.kind != "floats":
+            continue  # only float formats claim a grid of their own (words and bytes are made uniform exactly)
         if fmt.kind == "text-floats" and spec.extra.get("resolution_param"):
             # printed decimals have a grid of their own (e.g. 1e-6) that the format does not declare
             plan.skipped.append(f"{key}: text floats are rounded to their printed digits, so their grid is unknown")

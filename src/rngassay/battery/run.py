@@ -51,8 +51,9 @@ class ViewCache:
         key = (view, k, window)
         if key not in self._cache:
             f, v = self.fmt, self.vals
-            if view in self.limits:
-                v = v[: self.limits[view]]
+            lk = view if window is None else f"{view}~{window}"
+            if lk in self.limits:
+                v = v[: self.limits[lk]]
             if window is not None:
                 out = views.as_window(v, f, view, window)
             elif view == "uniforms" and f.kind == "text-floats" and f.decimals is not None:
@@ -124,7 +125,9 @@ def view_limits(fmt: Format, checks: list[PlannedCheck]) -> dict[str, int]:
             continue
         n = -(-pc.bytes // fmt.itemsize)
         n += (-n) % max(1, 8 // fmt.itemsize)  # whole 64-bit words for the word views
-        out[pc.view] = max(out.get(pc.view, 0), n)
+        window = pc.params.get("window")
+        key = pc.view if window is None else f"{pc.view}~{window}"  # a window is made of what its checks read
+        out[key] = max(out.get(key, 0), n)
     return out
 
 
