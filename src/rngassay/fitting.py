@@ -66,6 +66,7 @@ import numpy as np
 
 from .checks.result import CheckResult
 from .errors import InputError
+from .intake.views import decimal_grid  # noqa: F401  (also re-exported for callers of fitting)
 from .report.model import CAUTIONS, CheckReport, Report, Round
 
 #: Default seed of the randomised PIT (discrete declarations).
@@ -782,19 +783,6 @@ def continuous_pit(log_f: np.ndarray, log_s: np.ndarray) -> np.ndarray:
     return u
 
 
-def decimal_grid(x: np.ndarray, max_decimals: int = 8) -> int | None:
-    """The number of decimals d (0..max_decimals) such that every value is a multiple of 10^-d (within
-    float rounding), or None when the values are not on such a grid (full-precision data)."""
-    if x.size == 0 or not np.all(np.isfinite(x)):
-        return None
-    for d in range(max_decimals + 1):
-        y = x * 10.0**d
-        tol = 1e-6 + 8 * np.finfo(float).eps * np.abs(y)
-        if np.all(np.abs(y - np.rint(y)) <= tol):
-            return d
-    return None
-
-
 def interval_pit(frozen, x: np.ndarray, decimals: int, seed: int) -> np.ndarray:
     """Randomised PIT for values rounded to ``decimals`` decimals: the true value lies in the cell
     [x - h/2, x + h/2), h = 10^-decimals, so u = F(lo) + V (F(hi) - F(lo)) with V ~ U[0, 1) from numpy's
@@ -1011,7 +999,7 @@ def fit_values(
                 fit_checks.append(tail_count_check(lf, q, "lower"))
                 fit_checks.append(tail_count_check(ls, q, "upper"))
         fit_checks.append(extreme_value_check(lf, ls))
-        decimals = decimal_grid(x)
+        decimals = decimal_grid(x, max_decimals=8)
         if decimals is not None:
             # rounded values: a plain PIT would put the uniforms on a grid the battery then detects
             u = interval_pit(decl.frozen, x, decimals, pit_seed)

@@ -31,13 +31,23 @@ _T_EDGES = np.array([-2.5, -1.5, -0.5, 0.5, 1.5, 2.5])
 
 
 @njit(cache=True)
-def _bm(w, start, N, R, RS, C, BT):
-    """Linear complexity of bits [start, start + N) of the MSB-first sequence ``w``.
+def _xor_and(a, b, n):
+    """Parity word of a[:n] AND b[:n] (XOR-reduced); a plain loop over 1-D views vectorises."""
+    acc = np.uint64(0)
+    for k in range(n):
+        acc ^= a[k] & b[k]
+    return acc
 
-    Scratch: R, C uint64 arrays of at least W + 2 words (W = ceil(N / 64)), BT of shape (2, W + 2)
-    (the polynomial B and a spare, swapped by index) and RS of shape (64, W + 2).  The block is held reversed (LSB-first) in R, so that the taps s_{n-i}, i = 0..L,
-    line up with the coefficients c_i of C (LSB-first); RS[sh] is R shifted by sh bits, so the
-    discrepancy is an aligned AND/XOR reduction over words (vectorisable)."""
+
+@njit(cache=True)
+def _bm(w, start, N, R, RS, C, B, T):
+    """Linear complexity of bits [start, start + N) of the MSB-first sequence ``w`` (Massey 1969).
+
+    Word-parallel: the block is held reversed (LSB-first) in R, so that the taps s_{n-i}, i = 0..L, line
+    up with the coefficients c_i of C (LSB-first); RS[sh] is R shifted by sh bits, so the discrepancy is
+    an aligned AND/XOR reduction of C against RS[sh], written over 1-D views so that the discrepancy and
+    the update loops vectorise (about 3x faster than an indexed loop on 2^16..2^18-bit blocks).
+    Scratch: R, C, B, T of at least W + 2 words, RS of shape (64, W + 2), W = ceil(N / 64)."""
     W = (N + 63) // 64
     allb = np.uint64(0xFFFFFFFFFFFFFFFF)
     for i in range(W):
@@ -59,23 +69,16 @@ def _bm(w, start, N, R, RS, C, BT):
         for i in range(W + 1):
             RS[sh, i] = (R[i] >> np.uint64(sh)) | (R[i + 1] << np.uint64(64 - sh))
         RS[sh, W + 1] = 0
-    for i in range(W + 2):
-        C[i] = 0
-        BT[0, i] = 0
-        BT[1, i] = 0
+    C[: W + 2] = 0
+    B[: W + 2] = 0
+    T[: W + 2] = 0
     C[0] = 1
-    bi = 0  # row of BT holding B
-    BT[0, 0] = 1
+    B[0] = 1
     L = 0
     m = -1
     for n in range(N):
         o = 64 * W - 1 - n  # position of s_n in R (LSB-first); s_{n-i} is at o + i
-        osh = o & 63
-        base = o >> 6
-        acc = np.uint64(0)
-        nwc = (L >> 6) + 1
-        for k in range(nwc):
-            acc ^= C[k] & RS[osh, base + k]
+        acc = _xor_and(C, RS[o & 63, o >> 6:], (L >> 6) + 1)
         if popcount64(acc) & np.uint64(1):
             shift = n - m
             q = shift >> 6
@@ -85,20 +88,26 @@ def _bm(w, start, N, R, RS, C, BT):
             if top > W + 1:
                 top = W + 1
             swap = 2 * L <= n
-            ti = 1 - bi
             if swap:
-                for k in range(top + 1):
-                    BT[ti, k] = C[k]
-            # C <- C + x^shift B
+                T[: top + 1] = C[: top + 1]
+            # C <- C + x^shift B  (deg x^shift B <= newL, so q <= top)
             if r == 0:
-                for k in range(q, top + 1):
-                    C[k] ^= BT[bi, k - q]
+                Cq = C[q: top + 1]
+                Bq = B[: Cq.size]
+                for k in range(Cq.size):
+                    Cq[k] ^= Bq[k]
             else:
-                C[q] ^= BT[bi, 0] << np.uint64(r)
-                for k in range(q + 1, top + 1):
-                    C[k] ^= (BT[bi, k - q] << np.uint64(r)) | (BT[bi, k - q - 1] >> np.uint64(64 - r))
+                C[q] ^= B[0] << np.uint64(r)
+                rl = np.uint64(r)
+                rr = np.uint64(64 - r)
+                Cq = C[q + 1: top + 1]
+                nk = Cq.size
+                B1 = B[1: 1 + nk]
+                B0 = B[0: nk]
+                for k in range(nk):
+                    Cq[k] ^= (B1[k] << rl) | (B0[k] >> rr)
             if swap:
-                bi = ti
+                B, T = T, B
                 L = newL
                 m = n
     return L
@@ -106,15 +115,16 @@ def _bm(w, start, N, R, RS, C, BT):
 
 @njit(cache=True)
 def _bm_blocks(w, start, M, N):
-    """Linear complexity of N consecutive M-bit blocks."""
+    """Linear complexity of N consecutive M-bit blocks of the MSB-first sequence ``w``."""
     W = (M + 63) // 64
     R = np.empty(W + 2, dtype=np.uint64)
     RS = np.empty((64, W + 2), dtype=np.uint64)
     C = np.empty(W + 2, dtype=np.uint64)
-    BT = np.empty((2, W + 2), dtype=np.uint64)
+    B = np.empty(W + 2, dtype=np.uint64)
+    T = np.empty(W + 2, dtype=np.uint64)
     out = np.empty(N, dtype=np.int64)
     for b in range(N):
-        out[b] = _bm(w, start + b * M, M, R, RS, C, BT)
+        out[b] = _bm(w, start + b * M, M, R, RS, C, B, T)
     return out
 
 

@@ -39,7 +39,8 @@ from numba import njit
 from rngassay.checks.registry import CheckSpec, check_id, register
 from rngassay.checks.result import CheckResult
 
-from ._common import lanes_u64, popcount64
+from ._common import lanes_u64
+from .complexity import _bm_blocks as bm_long_blocks  # the one Berlekamp-Massey kernel
 from .lanes_spectral import LaneParameterError, as_int, check_lane_bits, check_log2_block, sidak_log, words32
 
 LC_LOG2_BLOCK_MIN, LC_LOG2_BLOCK_MAX = 4, 20
@@ -49,104 +50,6 @@ LC_LONG_LANES = 4  # planner: lanes 0..3
 
 
 # --------------------------------------------------------------------------- kernel
-
-
-@njit(cache=True)
-def _xor_and(a, b, n):
-    """Parity word of a[:n] AND b[:n] (XOR-reduced); a plain loop over 1-D views vectorises."""
-    acc = np.uint64(0)
-    for k in range(n):
-        acc ^= a[k] & b[k]
-    return acc
-
-
-@njit(cache=True)
-def _bm_long(w, start, N, R, RS, C, B, T):
-    """Linear complexity of bits [start, start + N) of the MSB-first sequence ``w`` (Massey 1969).
-
-    The same word-parallel scheme as :func:`.complexity._bm` (the block held reversed in R, RS[sh] =
-    R shifted by sh bits, so the discrepancy is an aligned AND/XOR reduction of C against RS[sh]),
-    written over 1-D views so that the discrepancy and the update loops vectorise: about 3x faster
-    on 2^16..2^18-bit blocks.  Scratch: R, C, B, T of at least W + 2 words, RS of shape (64, W + 2),
-    W = ceil(N / 64).  Cross-checked against :func:`.complexity._bm_blocks` in the tests."""
-    W = (N + 63) // 64
-    allb = np.uint64(0xFFFFFFFFFFFFFFFF)
-    for i in range(W):
-        p = start + 64 * i
-        j = p >> 6
-        sh = p & 63
-        if sh == 0:
-            v = w[j]
-        else:
-            v = (w[j] << np.uint64(sh)) | (w[j + 1] >> np.uint64(64 - sh))
-        R[W - 1 - i] = v
-    if N & 63:
-        R[0] &= allb << np.uint64(64 - (N & 63))
-    R[W] = 0
-    R[W + 1] = 0
-    for i in range(W + 2):
-        RS[0, i] = R[i]
-    for sh in range(1, 64):
-        for i in range(W + 1):
-            RS[sh, i] = (R[i] >> np.uint64(sh)) | (R[i + 1] << np.uint64(64 - sh))
-        RS[sh, W + 1] = 0
-    C[: W + 2] = 0
-    B[: W + 2] = 0
-    T[: W + 2] = 0
-    C[0] = 1
-    B[0] = 1
-    L = 0
-    m = -1
-    for n in range(N):
-        o = 64 * W - 1 - n  # position of s_n in R (LSB-first); s_{n-i} is at o + i
-        acc = _xor_and(C, RS[o & 63, o >> 6:], (L >> 6) + 1)
-        if popcount64(acc) & np.uint64(1):
-            shift = n - m
-            q = shift >> 6
-            r = shift & 63
-            newL = n + 1 - L
-            top = (max(L, newL) >> 6) + 1
-            if top > W + 1:
-                top = W + 1
-            swap = 2 * L <= n
-            if swap:
-                T[: top + 1] = C[: top + 1]
-            # C <- C + x^shift B  (deg x^shift B <= newL, so q <= top)
-            if r == 0:
-                Cq = C[q: top + 1]
-                Bq = B[: Cq.size]
-                for k in range(Cq.size):
-                    Cq[k] ^= Bq[k]
-            else:
-                C[q] ^= B[0] << np.uint64(r)
-                rl = np.uint64(r)
-                rr = np.uint64(64 - r)
-                Cq = C[q + 1: top + 1]
-                nk = Cq.size
-                B1 = B[1: 1 + nk]
-                B0 = B[0: nk]
-                for k in range(nk):
-                    Cq[k] ^= (B1[k] << rl) | (B0[k] >> rr)
-            if swap:
-                B, T = T, B
-                L = newL
-                m = n
-    return L
-
-
-@njit(cache=True)
-def bm_long_blocks(w, start, M, N):
-    """Linear complexity of N consecutive M-bit blocks of the MSB-first sequence ``w``."""
-    W = (M + 63) // 64
-    R = np.empty(W + 2, dtype=np.uint64)
-    RS = np.empty((64, W + 2), dtype=np.uint64)
-    C = np.empty(W + 2, dtype=np.uint64)
-    B = np.empty(W + 2, dtype=np.uint64)
-    T = np.empty(W + 2, dtype=np.uint64)
-    out = np.empty(N, dtype=np.int64)
-    for b in range(N):
-        out[b] = _bm_long(w, start + b * M, M, R, RS, C, B, T)
-    return out
 
 
 def distance_tail_log2(d: int, M: int) -> float:
