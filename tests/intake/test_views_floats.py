@@ -119,6 +119,7 @@ def test_fraction_grid_check_fails_a_48_bit_grid_and_names_52_bits():
     u52 = (rng.integers(0, 2**52, size=100, dtype=np.uint64) | np.uint64(1)).astype(np.float64) * 2.0**-52
     r52 = check_fraction_grid(u52, 53)
     assert r52.p_value == 1.0 and "52-bit" in r52.details["note"]
+    assert "note" not in check_fraction_grid(np.random.Generator(np.random.PCG64(2)).random(1000), 53).details
     honest = rng.random(100_000)
     assert check_fraction_grid(honest, 53).p_value == 1.0
     # pooled over replicates: all values at once

@@ -81,6 +81,10 @@ def run_battery(
                     c.seconds = round(c.seconds + o2.seconds, 4)
                 if not complete2:
                     complete, reason = False, reason2
+    for c in checks:  # findings a check names in words (e.g. the grid the values lie on)
+        note = (c.second_level.get("pooled") or {}).get("note")
+        if note:
+            notes.append(f"{c.id}: {note}")
     if not complete:
         notes.append(f"incomplete run: {reason}; the verdict covers only what finished")
     order = {pc.id: i for i, pc in enumerate(plan.checks)}

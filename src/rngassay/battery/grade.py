@@ -160,8 +160,11 @@ def pool_sufficient(spec: Any, firsts: list[CheckResult]) -> dict[str, Any] | No
         except (KeyError, ValueError, TypeError):
             return None
         p = _first_level_p(r, both)
-        return {"law": r.null + " on pooled tables", "statistic": float(r.statistic), "p_right": float(r.p_value),
-                "p_left": float(r.p_left) if r.p_left is not None else None, "p_value": float(p)}
+        out = {"law": r.null + " on pooled tables", "statistic": float(r.statistic), "p_right": float(r.p_value),
+               "p_left": float(r.p_left) if r.p_left is not None else None, "p_value": float(p)}
+        if r.details.get("note"):
+            out["note"] = str(r.details["note"])  # a finding worth a line in the report (e.g. the grid found)
+        return out
     if "z" in d0:
         try:
             z = float(np.sum([float(f.pooled["z"]) for f in firsts]) / math.sqrt(len(firsts)))

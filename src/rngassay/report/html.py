@@ -156,7 +156,8 @@ def _header(r: Report) -> list[str]:
     known = {"kind", "name", "format", "bytes_read", "sha256"}
     rows += [(str(k), _e(_value(v))) for k, v in src.items() if k not in known]
     rows += [
-        ("budget", _bytes_text(r.budget_bytes)),
+        ("budget", f"{r.budget_bytes:,} values" if str(r.source.get("format", "")).startswith("text")
+         else _bytes_text(r.budget_bytes)),
         ("alpha", _e(f"{r.alpha:g}")),
         ("elapsed", _e(f"{r.elapsed_s:.2f} s")),
         ("command", f'<span class="mono">{_e(r.command)}</span>'),
@@ -185,10 +186,12 @@ def _check_table(r: Report) -> list[str]:
     if not r.checks:
         return ["<h2>Checks</h2>", "<p>No checks ran.</p>"]
     show_rounds = any(len(c.rounds) > 1 for c in r.checks)
-    head = ["check", "family", "parameters", "p-value", "Holm-adjusted p", "grade", "bytes", "replicates"]
+    text = str(r.source.get("format", "")).startswith("text")  # text: amounts are values, not bytes
+    unit = "values" if text else "bytes"
+    head = ["check", "family", "parameters", "p-value", "Holm-adjusted p", "grade", unit, "replicates"]
     if show_rounds:
         head.append("rounds (p, replicates)")
-    num = {"p-value", "Holm-adjusted p", "bytes", "replicates"}
+    num = {"p-value", "Holm-adjusted p", unit, "replicates"}
     out = [
         "<h2>Checks, worst first</h2>",
         "<table class=\"checks\"><thead><tr>"
@@ -204,7 +207,7 @@ def _check_table(r: Report) -> list[str]:
             f'<td class="num">{_e(format_p(c.p_value))}</td>',
             f'<td class="num">{_e(format_p(c.adjusted_p))}</td>',
             _grade_cell(c.grade),
-            _bytes_cell(c.bytes),
+            f'<td class="num">{_e(format_count(c.bytes))}</td>' if text else _bytes_cell(c.bytes),
             f'<td class="num">{_e(c.replicates)}</td>',
         ]
         if show_rounds:

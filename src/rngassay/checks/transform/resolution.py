@@ -116,7 +116,7 @@ def _grid_result(r: int, m: int, c: int) -> CheckResult:
     return CheckResult(
         name="fraction grid", statistic=float(r), p_value=p, null=f"P(all on a 2^-r grid) = 2^(-n ({t} - r)), r < {t}",
         kind="discrete", n=m, pooled={"r": r, "n": m, "claimed": c},
-        details={"grid": f"2^-{r}", "claimed": f"2^-{c}", "bits": r, "note": note},
+        details={"grid": f"2^-{r}", "claimed": f"2^-{c}", "bits": r, **({"note": note} if r < c else {})},
     )
 
 
