@@ -81,3 +81,30 @@ def test_explicit_text_budget_counts_values(dice, tmp_path):
 
     with pytest.raises(InputError, match="values needed"):
         api.assay(dice["fair"][0], fmt="text", value_range="1:6", budget=N + 1)
+
+
+@pytest.mark.slow
+def test_honest_uniforms_printed_with_six_decimals_pass(tmp_path):
+    # 2,000,000 numpy random() values printed with %.6f (a 10^-6 grid): the collision check used to fail them
+    # (p ~ 2e-8) by cutting [0, 1) into 2^20 cells that do not divide the grid. Fixed seed; a value that
+    # rounds to 1.000000 is left out (the text format takes floats in [0, 1)).
+    u = np.random.default_rng(2026).random(2_000_000)
+    u = np.round(u, 6)
+    u = u[u < 1.0]
+    path = tmp_path / "u6.txt"
+    np.savetxt(path, u, fmt="%.6f")
+    rep = api.assay(str(path), fmt="text")
+    assert rep.source["format"] == "text floats on a 10^-6 grid"
+    assert rep.verdict == "pass", [(c.id, c.p_value) for c in rep.checks if c.grade != "pass"]
+
+
+@pytest.mark.slow
+def test_a_coarse_float_grid_fails_once(tmp_path):
+    # float32 values stored as <f8: only the fraction grid check may fail; bit views and resolution-aware
+    # checks take the 24 bits the values carry (fixed seed)
+    path = tmp_path / "f32.f8"
+    np.random.default_rng(3).random(1 << 20, dtype=np.float32).astype("<f8").tofile(path)
+    rep = api.assay(str(path), fmt="<f8")
+    failed = [c.key for c in rep.checks if c.grade == "fail"]
+    assert failed == ["fraction grid"]
+    assert any("2^-24 grid" in n for n in rep.notes)
