@@ -99,7 +99,6 @@ def main() -> None:
             per[cid].extend(c["replicate_p"])
             kinds[cid] = c["kind"]
     print("\n## First-level p-values per check (all replicates of all runs)\n")
-    print("| check | kind | p-values | KS D | KS p | share < 0.01 |\n|---|---|---|---|---|---|")
     from rngassay.stats import holm_adjusted
 
     ks_p = {}
