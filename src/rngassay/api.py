@@ -16,7 +16,8 @@ from .intake.formats import parse_format
 from .intake.sources import ArraySource, RawSource, draw_function, open_source
 from .intake.stream import Stream
 from .sizes import parse_size
-from .battery.battery import run_battery
+from .battery.battery import run_battery, stopped_report
+from .battery.run import armed, signal_guard, signal_name
 from .battery.grade import DEFAULT_ALPHA
 from .battery.plan import Plan, make_plan
 from .report.model import Report
@@ -101,58 +102,68 @@ def assay(
     stream = open_stream(
         source, fmt=fmt, value_range=value_range, command=command, shell=shell, python=python, gen=gen, seed=seed
     )
-    with stream:
-        f = stream.fmt
-        size = stream.source.size_hint()
-        shared = not stream.unlimited
-        if shared:
-            if size == 0:
-                raise InputError("empty stream: no bytes to test", stream.source.where, "check the source produces data")
-            if not f.is_binary:
-                # text: the budget counts values, and a finite text source is read whole up to it, so
-                # that every value decoded is examined (bytes read and the SHA-256 cover the same values)
-                stream = _buffered(stream, budget_bytes)
-                if explicit and stream.source.values_total < budget_bytes:
+    with signal_guard(), stream:
+        try:
+            f = stream.fmt
+            size = stream.source.size_hint()
+            shared = not stream.unlimited
+            if shared:
+                if size == 0:
+                    raise InputError("empty stream: no bytes to test", stream.source.where, "check the source produces data")
+                if not f.is_binary:
+                    # text: the budget counts values, and a finite text source is read whole up to it, so
+                    # that every value decoded is examined (bytes read and the SHA-256 cover the same values)
+                    stream = _buffered(stream, budget_bytes)
+                    if explicit and stream.source.values_total < budget_bytes:
+                        raise InputError(
+                            f"stream is shorter than the plan needs ({budget_bytes} values needed, "
+                            f"{stream.source.values_total} available)",
+                            stream.source.where,
+                            "give a smaller --budget (for text it counts values)",
+                        )
+                    budget_bytes = stream.source.values_total
+                elif not explicit and size is not None:
+                    budget_bytes = min(budget_bytes, size)
+                    if f.is_binary and size % f.itemsize and budget_bytes == size:
+                        left = size % f.itemsize
+                        raise InputError(
+                            f"stream length {size} bytes is not a whole number of {f.itemsize}-byte values "
+                            f"({left} byte{'s' if left != 1 else ''} left over)",
+                            f"{stream.source.where} byte offset {size - left}",
+                            "check --format, or trim the stream to whole values (no data is dropped silently)",
+                        )
+                if f.is_binary and explicit and size is not None and size < budget_bytes:
                     raise InputError(
-                        f"stream is shorter than the plan needs ({budget_bytes} values needed, "
-                        f"{stream.source.values_total} available)",
-                        stream.source.where,
-                        "give a smaller --budget (for text it counts values)",
-                    )
-                budget_bytes = stream.source.values_total
-            elif not explicit and size is not None:
-                budget_bytes = min(budget_bytes, size)
-                if f.is_binary and size % f.itemsize and budget_bytes == size:
-                    left = size % f.itemsize
-                    raise InputError(
-                        f"stream length {size} bytes is not a whole number of {f.itemsize}-byte values "
-                        f"({left} byte{'s' if left != 1 else ''} left over)",
-                        f"{stream.source.where} byte offset {size - left}",
-                        "check --format, or trim the stream to whole values (no data is dropped silently)",
-                    )
-            if f.is_binary and explicit and size is not None and size < budget_bytes:
-                raise InputError(
-                    f"stream is shorter than the plan needs ({budget_bytes} bytes needed, {size} available)",
-                    stream.source.where,
-                    "give a smaller --budget",
-                )
-            if f.is_binary and (size is None or (budget_bytes <= BUFFER_LIMIT and not plan_only)):
-                # read (and validate) before planning: standard input of unknown length, text, and
-                # anything small enough -- so that bad values are reported before any work
-                stream = _buffered(stream, budget_bytes)
-                whole = budget_bytes - budget_bytes % f.itemsize
-                if explicit and stream.bytes_read < whole:
-                    raise InputError(
-                        f"stream is shorter than the plan needs ({whole} bytes needed, "
-                        f"{stream.bytes_read} available)",
+                        f"stream is shorter than the plan needs ({budget_bytes} bytes needed, {size} available)",
                         stream.source.where,
                         "give a smaller --budget",
                     )
-                budget_bytes = min(budget_bytes, stream.bytes_read)
-        grid_note = None
-        if isinstance(stream, _MemoryStream) and f.kind in ("floats", "text-floats"):
-            f, grid_note = _value_grid(f, stream.source.vals)
-            stream.fmt = f
+                if f.is_binary and _read_ahead(size, explicit, budget_bytes, f, plan_only):
+                    # read (and validate) before planning: standard input of unknown length with no --budget
+                    # (at most the default budget), and anything small enough -- so that bad values are
+                    # reported before any work. A pipe, FIFO or device with a larger --budget is planned for
+                    # that budget and read in segments like a file of that size (bounded memory).
+                    stream = _buffered(stream, budget_bytes)
+                    whole = budget_bytes - budget_bytes % f.itemsize
+                    if explicit and stream.bytes_read < whole:
+                        raise InputError(
+                            f"stream is shorter than the plan needs ({whole} bytes needed, "
+                            f"{stream.bytes_read} available)",
+                            stream.source.where,
+                            "give a smaller --budget",
+                        )
+                    budget_bytes = min(budget_bytes, stream.bytes_read)
+            grid_note = None
+            if isinstance(stream, _MemoryStream) and f.kind in ("floats", "text-floats"):
+                f, grid_note = _value_grid(f, stream.source.vals)
+                stream.fmt = f
+        except KeyboardInterrupt as e:
+            # a stop signal while the source was read ahead (e.g. standard input): nothing was checked,
+            # but the run still ends in a report -- "no verdict", marked incomplete
+            plan = make_plan(stream.fmt, budget_bytes, shared=not stream.unlimited, checks=checks, skip=skip)
+            return stopped_report(stream, plan, f"interrupted by {signal_name(getattr(e, 'signum', 2))} while "
+                                  "reading the source", alpha=alpha, t0=t0,
+                                  settings={"workers_used": workers, "retest": retest})
         plan = make_plan(f, budget_bytes, shared=shared, checks=checks, skip=skip)
         if plan_only:
             return plan
@@ -249,8 +260,24 @@ class _MemoryStream(Stream):
         self._inner.close()
 
 
+def _read_ahead(size: int | None, explicit: bool, budget_bytes: int, f, plan_only: bool) -> bool:
+    """Whether a finite binary source is read into memory before planning (see :func:`assay`): the same
+    rule for a pipe, FIFO or device as for a file, so the same bytes give the same report; never more
+    than BUFFER_LIMIT (or the default budget when the length is unknown and no budget is given)."""
+    if size is None and not explicit:
+        return True  # unknown length, no budget: read up to the default budget to learn it
+    return budget_bytes <= BUFFER_LIMIT and not plan_only
+
+
 def _buffered(stream: Stream, budget_bytes: int) -> Stream:
-    """Read up to ``budget_bytes`` of the stream into memory (whole values) and serve them again."""
+    """Read up to ``budget_bytes`` of the stream into memory (whole values) and serve them again.
+
+    Reading is interruptible (a stop signal raises even where signals are otherwise deferred)."""
+    with armed():
+        return _read_into_memory(stream, budget_bytes)
+
+
+def _read_into_memory(stream: Stream, budget_bytes: int) -> Stream:
     chunks = []
     if stream.fmt.is_binary:
         vals = stream.read_values(budget_bytes // stream.fmt.itemsize)

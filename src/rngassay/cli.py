@@ -203,12 +203,14 @@ def _split(values: tuple[str, ...]) -> list[str] | None:
 def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, budget, checks, skip, alpha,
              workers, no_retest, plan_only, cluster, json_path, html_path, junit_path, strict, quiet) -> None:
     """Assay a stream: read it, run the checks, grade, report; exit 0 pass, 1 fail, 2 bad input."""
+    from .battery.run import defer_signals
+
+    defer_signals()  # a stop signal while starting up is kept for the run, which then ends in a report
     from . import api
 
     _check_source_given(source, command, python_spec, gen)
-    if workers is not None and workers < 1:
-        raise InputError(f"--workers must be at least 1, got {workers}", "", "e.g. --workers 2")
-    outputs = _check_outputs(json_path, html_path, junit_path, (source,))
+    check_workers(workers, cluster)
+    outputs = _check_outputs(json_path, html_path, junit_path, input_paths(source, command, shell, python_spec))
     if shell and command is None:
         raise InputError("--shell applies to --command only", "", "drop --shell or give --command")
     progress = Progress(quiet)
@@ -236,15 +238,29 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
 
 def finish(report, outputs: list[tuple[str, str]], strict: bool) -> None:
     """Write the reports, print the table and exit: 0 pass (and borderline unless strict), 1 fail or an
-    incomplete run, 130 interrupted. Shared by `test`, `fit` and `seeds`."""
-    _write_outputs(report, outputs)
+    incomplete run, 130 interrupted. Shared by `test`, `fit` and `seeds`.
+    A report that cannot be written still leaves the verdict and the table on standard output (then exit 2)."""
+    try:
+        _write_outputs(report, outputs)
+    except InputError:
+        out(report.to_text(color=sys.stdout.isatty()))
+        raise
     out(report.to_text(color=sys.stdout.isatty()))
     for what, path in outputs:
         out(f"{what:<12} {path}")
     code = report.exit_code(strict=strict)
-    if report.incomplete:
+    sig = _stop_signal()
+    if sig:  # SIGINT, SIGTERM, SIGHUP: 128 + the signal's number (130, 143, 129)
+        code = 128 + sig
+    elif report.incomplete:
         code = 130 if any("interrupted" in n for n in report.notes) else max(code, EXIT_FAIL)
     raise click.exceptions.Exit(code)
+
+
+def _stop_signal() -> int | None:
+    from .battery.run import received_signal
+
+    return received_signal()
 
 
 def _check_outputs(json_path, html_path, junit_path, inputs: tuple = ()) -> list[tuple[str, str]]:
@@ -252,9 +268,64 @@ def _check_outputs(json_path, html_path, junit_path, inputs: tuple = ()) -> list
     report ever replaces an input file, a device or a pipe."""
     from .report.files import check_report_paths
 
-    outs = [(w, p) for w, p in (("json report", json_path), ("html report", html_path), ("junit report", junit_path)) if p]
+    outs = [(w, p) for w, p in (("json report", json_path), ("html report", html_path), ("junit report", junit_path))
+            if p is not None]
     check_report_paths(outs, [p for p in inputs if isinstance(p, str)])
     return outs
+
+
+MAX_WORKERS = 256  # worker processes a run may ask for; more only adds start-up cost
+
+
+def check_workers(workers: int | None, cluster: str | None = None) -> None:
+    """--workers must be 1..MAX_WORKERS, and is not combined with --cluster (the cluster's workers do the work);
+    a --cluster address must have the form SCHEME://HOST:PORT (checked before any work or connection)."""
+    if cluster is not None:
+        from .battery.cluster import validate_address
+
+        validate_address(cluster)
+    if workers is None:
+        return
+    if workers < 1:
+        raise InputError(f"--workers must be at least 1, got {workers}", "", "e.g. --workers 2")
+    if workers > MAX_WORKERS:
+        shown = str(workers) if len(str(workers)) <= 20 else str(workers)[:20] + "..."
+        raise InputError(f"--workers {shown} is above the maximum of {MAX_WORKERS}", "",
+                         "the battery uses at most one worker per check; e.g. --workers 4")
+    if cluster is not None:
+        raise InputError("--workers and --cluster given", "", "the cluster's workers do the work; drop --workers")
+
+
+def input_paths(source: Any = None, command: str | None = None, shell: bool = False, python_spec: str | None = None,
+                extra: tuple = ()) -> list[str]:
+    """Every existing file a run reads, for the report-path check: the source, the --python module's file,
+    a command's arguments that name existing files (the program itself too), and ``extra`` (odds, seeds files)."""
+    import shlex
+
+    paths = [p for p in (source, *extra) if isinstance(p, str) and p]
+    if python_spec:
+        mod = python_spec.rsplit(":", 1)[0] if ":" in python_spec else python_spec
+        if os.path.exists(mod):
+            paths.append(mod)
+        elif mod and not mod.endswith(".py"):
+            try:
+                import importlib.util
+
+                spec = importlib.util.find_spec(mod)
+                if spec is not None and spec.origin and os.path.exists(spec.origin):
+                    paths.append(spec.origin)
+            except (ImportError, ValueError, AttributeError):
+                pass
+    if command:
+        try:
+            words = shlex.split(command)
+        except ValueError:
+            words = command.split()
+        for w in words:
+            for part in ([w] + (w.split("=", 1)[1:] if "=" in w else [])):
+                if part and os.path.exists(part) and not os.path.isdir(part):
+                    paths.append(part)
+    return paths
 
 
 def _write_outputs(report, outputs: list[tuple[str, str]]) -> None:
@@ -280,22 +351,33 @@ def _check_source_given(source: Any, command: Any, python_spec: Any, gen: Any) -
         )
 
 
+def _one_line(text: str) -> str:
+    """An error message as one printable line: control characters (newlines in a file name, escapes) are
+    shown escaped, never raw."""
+    from .report.files import safe_name
+
+    return safe_name(text)
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point: one line on stderr and exit 2 for bad input or usage, never a traceback."""
+    from .battery.run import signal_guard
+
     try:
-        rc = cli.main(args=argv, prog_name="rngassay", standalone_mode=False)
+        with signal_guard(ignore_after_stop=True):  # a stop signal: reports marked incomplete, exit 128 + signal
+            rc = cli.main(args=argv, prog_name="rngassay", standalone_mode=False)
     except InputError as e:
-        click.echo(f"rngassay: error: {e.line()}", err=True)
+        click.echo(f"rngassay: error: {_one_line(e.line())}", err=True)
         rc = EXIT_USAGE
     except click.exceptions.UsageError as e:
         hint = ""
         if e.ctx is not None:
             hint = f" (see '{e.ctx.command_path} --help')"
-        click.echo(f"rngassay: usage error: {e.format_message()}{hint}", err=True)
+        click.echo(f"rngassay: usage error: {_one_line(e.format_message())}{hint}", err=True)
         rc = EXIT_USAGE
-    except click.exceptions.Abort:
+    except click.exceptions.Abort as e:
         click.echo("rngassay: interrupted", err=True)
-        rc = 130
+        rc = 128 + (getattr(e.__context__, "signum", None) or _stop_signal() or 2)
     except click.exceptions.Exit as e:
         rc = e.exit_code
     except BrokenPipeError:
@@ -305,9 +387,9 @@ def main(argv: list[str] | None = None) -> int:
         except OSError:  # pragma: no cover
             pass
         rc = EXIT_OK
-    except KeyboardInterrupt:
+    except KeyboardInterrupt as e:
         click.echo("rngassay: interrupted", err=True)
-        rc = 130
+        rc = 128 + (getattr(e, "signum", None) or _stop_signal() or 2)
     except Exception as e:  # a bug of ours: still one line; RNGASSAY_DEBUG=1 shows the traceback
         if os.environ.get("RNGASSAY_DEBUG"):
             raise

@@ -107,6 +107,10 @@ class Declaration:
     probs: np.ndarray | None = None  # odds: probabilities (normalised to sum 1)
 
 
+MAX_SPEC_CHARS = 200  # a --dist text longer than this is refused before parsing (deep nesting exhausts the parser)
+MAX_NUMBER_DIGITS = 40  # digits of one number in --dist or an odds file: more cannot change a float64 anyway
+
+
 def parse_dist_spec(spec: str) -> Declaration:
     """Parse ``NAME`` or ``NAME(param=value, ...)`` naming a ``scipy.stats`` distribution.
 
@@ -120,9 +124,13 @@ def parse_dist_spec(spec: str) -> Declaration:
     text = (spec or "").strip()
     if not text:
         raise InputError("empty --dist", "", hint)
+    if len(text) > MAX_SPEC_CHARS:
+        raise InputError(f"--dist is {len(text)} characters long, more than the {MAX_SPEC_CHARS} allowed", "", hint)
+    if any(len(d) > MAX_NUMBER_DIGITS for d in re.findall(r"[0-9_]+", text)):
+        raise InputError(f"--dist {spec!r}: a number has more than {MAX_NUMBER_DIGITS} digits", "", hint)
     try:
         node = ast.parse(text, mode="eval").body
-    except SyntaxError:
+    except (SyntaxError, ValueError, MemoryError, RecursionError):
         raise InputError(f"cannot parse --dist {spec!r}", "", hint) from None
     kwargs: dict[str, float] = {}
     if isinstance(node, ast.Name):
@@ -137,7 +145,9 @@ def parse_dist_spec(spec: str) -> Declaration:
                 raise InputError(f"cannot parse --dist {spec!r}", "", hint)
             try:
                 v = ast.literal_eval(kw.value)
-            except (ValueError, SyntaxError, TypeError):
+                if isinstance(v, int) and not isinstance(v, bool):
+                    v = float(v) if abs(v) >= 2**53 else v
+            except (ValueError, SyntaxError, TypeError, OverflowError, MemoryError, RecursionError):
                 raise InputError(f"--dist {spec!r}: parameter {kw.arg} must be a number", "", hint) from None
             if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
                 raise InputError(f"--dist {spec!r}: parameter {kw.arg} must be a finite number", "", hint)
@@ -191,12 +201,18 @@ def _parse_probability(text: Any, where: str) -> float:
     if isinstance(text, bool):
         raise InputError(f"probability must be a number, not {text!r}", where)
     if isinstance(text, (int, float)):
+        if isinstance(text, int) and len(str(abs(text))) > MAX_NUMBER_DIGITS:
+            raise InputError(f"probability has more than {MAX_NUMBER_DIGITS} digits", where,
+                             "write a number such as 0.01 or a fraction such as 1/100")
         v = float(text)
     else:
         s = str(text).strip()
+        if any(len(d) > MAX_NUMBER_DIGITS for d in re.findall(r"[0-9_]+", s)):
+            raise InputError(f"probability {s[:20]!r}... has a number of more than {MAX_NUMBER_DIGITS} digits", where,
+                             "write a number such as 0.01 or a fraction such as 1/100")
         try:
             v = float(Fraction(s)) if "/" in s else float(s)
-        except (ValueError, ZeroDivisionError):
+        except (ValueError, ZeroDivisionError, OverflowError):
             raise InputError(f"cannot read probability {s!r}", where,
                              "write a number such as 0.01 or a fraction such as 1/100") from None
     if not math.isfinite(v):
@@ -1138,7 +1154,8 @@ def register_cli(cli_group) -> None:
 
     import click
 
-    from .cli import Progress, _check_outputs, _check_source_given, _report_options, _split, finish
+    from .cli import (Progress, _check_outputs, _check_source_given, _report_options, _split, check_workers, finish,
+                      input_paths)
 
     @cli_group.command("fit")
     @click.argument("source", required=False)
@@ -1167,9 +1184,11 @@ def register_cli(cli_group) -> None:
             raise InputError("give exactly one of --dist and --odds" if dist_spec else "give --dist SPEC or --odds FILE",
                              "", "e.g. rngassay fit data.txt --dist 'norm(loc=0, scale=1)'")
         _check_source_given(source, command, None, None)
-        if workers is not None and workers < 1:
-            raise InputError(f"--workers must be at least 1, got {workers}", "", "e.g. --workers 2")
-        outputs = _check_outputs(json_path, html_path, junit_path, (source, odds_path))
+        check_workers(workers)
+        if not 0 <= pit_seed < 2**64:
+            raise InputError(f"--pit-seed must be between 0 and 2**64 - 1, got {str(pit_seed)[:30]}", "", "e.g. --pit-seed 1")
+        outputs = _check_outputs(json_path, html_path, junit_path,
+                                 input_paths(source, command, shell, None, (odds_path,)))
         progress = Progress(quiet)
         try:
             report = fit(source, dist=dist_spec, odds=odds_path, fmt=fmt, command=command, shell=shell, limit=limit,

@@ -14,22 +14,31 @@ _UNITS = {
 }
 
 
+MAX_SIZE = 1 << 50  # 1 PiB: larger sizes are refused before anything is planned or allocated
+
+
 def parse_size(text: str | int, option: str = "--budget") -> int:
     """Parse '64MiB', '1 GiB', '4096', '1.5KiB' (IEC: K, M, G, T also mean KiB, MiB...; KB, MB are decimal).
 
-    Zero, negative and unparsable sizes raise InputError.
+    Zero, negative, unparsable sizes and sizes above ``MAX_SIZE`` (1 PiB) raise InputError; the number is
+    read exactly (no float overflow for long digit strings).
     """
+    from fractions import Fraction
+
+    shown = repr(text) if len(str(text)) <= 40 else repr(str(text)[:40] + "...")
     if isinstance(text, int) and not isinstance(text, bool):
         n = text
     else:
-        m = re.fullmatch(r"\s*([+-]?\d+(?:\.\d+)?)\s*([A-Za-z]*)\s*", str(text))
+        m = re.fullmatch(r"\s*([+-]?[0-9]{1,30}(?:\.[0-9]{1,30})?)\s*([A-Za-z]*)\s*", str(text), flags=re.ASCII)
         if not m or m.group(2).lower() not in _UNITS:
             raise InputError(
-                f"cannot read {option} {text!r} as a size", "", "write a byte count with an IEC suffix, e.g. 64MiB, 512KiB, 1GiB"
+                f"cannot read {option} {shown} as a size", "", "write a byte count with an IEC suffix, e.g. 64MiB, 512KiB, 1GiB"
             )
-        n = int(float(m.group(1)) * _UNITS[m.group(2).lower()])
+        n = int(Fraction(m.group(1)) * _UNITS[m.group(2).lower()])
     if n <= 0:
-        raise InputError(f"{option} must be positive, got {text!r}", "", "e.g. 64MiB")
+        raise InputError(f"{option} must be positive, got {shown}", "", "e.g. 64MiB")
+    if n > MAX_SIZE:
+        raise InputError(f"{option} {shown} is above the maximum of 1 PiB", "", "e.g. 64MiB or 1GiB")
     return n
 
 

@@ -122,7 +122,11 @@ def test_read_missing_file_directory_and_binary(tmp_path):
         read_report_json(b)
 
 
-def test_read_accepts_later_schema_version(tmp_path):
+def test_read_refuses_unknown_schema_version(tmp_path):
+    # issue 11 item 8: a schema version this rngassay does not know is refused, not trusted
     p = tmp_path / "r.json"
     p.write_text(json.dumps({"schema": "rngassay-report/2", "checks": []}))
-    assert read_report_json(p)["schema"] == "rngassay-report/2"
+    with pytest.raises(InputError, match="unknown report schema version"):
+        read_report_json(p)
+    p.write_text(json.dumps({"schema": "rngassay-report/1", "checks": []}))
+    assert read_report_json(p)["schema"] == "rngassay-report/1"

@@ -8,10 +8,11 @@ from typing import Any, Callable
 from ..checks.registry import load_all
 from ..errors import InputError
 from ..intake.stream import Stream
-from ..report.model import CheckReport, Report, Round
+from ..report.model import NO_VERDICT, CheckReport, Report, Round
 from . import grade as G
 from .plan import Plan
-from .run import Executor, Outcome, run_plan
+from .run import (Executor, Outcome, defer_signals, received_signal, run_plan, signal_guard, signal_name,
+                  signals_deferred)
 
 
 def run_battery(
@@ -31,14 +32,19 @@ def run_battery(
     registry = load_all()
     notes: list[str] = list(f"left out {s}" for s in plan.skipped)
     stop_error = None
-    with (executor if executor is not None else Executor(workers)) as ex:
+    prev_deferred = signals_deferred()
+    with signal_guard(), (executor if executor is not None else Executor(workers)) as ex:
         try:
             outcomes, complete, reason = run_plan(stream, plan, ex, progress=progress)
         except InputError as e:
             outcomes = getattr(e, "partial", None)
             if outcomes is None or not any(r is not None for o in outcomes for r in o.results):
+                if outcomes is not None:  # died before any check finished: nothing to report
+                    e.what += f" (no check finished: {completed_of_planned(outcomes)}; no report written)"
                 raise
             stop_error, complete, reason = e, False, f"stopped by bad input: {e.line()}"
+            e.what += f" ({completed_of_planned(outcomes)}; the report of what finished is marked incomplete)"
+        defer_signals()  # grading and the reports are not cut short by a (second) stop signal
         rounds1 = [G.second_level(o) for o in outcomes]
         done = [(o, r) for o, r in zip(outcomes, rounds1) if r is not None]
         ps = [r.p_value for _, r in done]
@@ -53,7 +59,7 @@ def run_battery(
                 checks.append(_error_report(o, registry))
         # borderline checks: one retest on fresh, disjoint data when the source has more
         border = [c for c in checks if c.grade == "borderline"]
-        if border and retest and complete:
+        if border and retest and complete and received_signal() is None:
             if stream.ended and not stream.unlimited:
                 notes.append("borderline checks were not retested: the source has no more data")
             else:
@@ -61,7 +67,7 @@ def run_battery(
                 todo = [by_id[c.id].check for c in border]
                 if progress:
                     progress(f"retesting {len(todo)} borderline check(s) on fresh data")
-                try:
+                try:  # (run_plan can be interrupted like the first round)
                     outs2, complete2, reason2 = run_plan(stream, plan, ex, checks=todo, progress=progress)
                 except Exception as e:  # no more data: keep round one
                     outs2, complete2, reason2 = [], True, None
@@ -85,11 +91,14 @@ def run_battery(
         note = (c.second_level.get("pooled") or {}).get("note")
         if note:
             notes.append(f"{c.id}: {note}")
+    if complete and received_signal() is not None:
+        complete, reason = False, f"interrupted by {signal_name(received_signal())} while grading"
     if not complete:
-        notes.append(f"incomplete run: {reason}; the verdict covers only what finished")
+        notes.append(f"incomplete run: {reason}; {completed_of_planned(outcomes)}; "
+                     + ("the verdict covers only what finished" if checks else "no check finished: no verdict"))
     order = {pc.id: i for i, pc in enumerate(plan.checks)}
     checks.sort(key=lambda c: order.get(c.id, 10**9))
-    verdict = G.run_verdict([c.grade for c in checks])
+    verdict = G.run_verdict([c.grade for c in checks]) if checks else NO_VERDICT
     report = Report(
         command=command,
         source=stream.info().to_dict(),
@@ -105,10 +114,36 @@ def run_battery(
                       borderline_factor=G.BORDERLINE_FACTOR),
         notes=notes,
     )
+    defer_signals(prev_deferred)
     if stop_error is not None:
         stop_error.partial_report = report  # type: ignore[attr-defined]
         raise stop_error
     return report
+
+
+def stopped_report(stream: Stream, plan: Plan, reason: str, *, alpha: float = G.DEFAULT_ALPHA,
+                   command: str = "test", settings: dict[str, Any] | None = None, t0: float | None = None) -> Report:
+    """The report of a run stopped before any check ran (e.g. interrupted while the source was read
+    ahead): no checks, verdict "no verdict", marked incomplete, with what was read and hashed so far."""
+    outcomes = [Outcome(pc, [None] * pc.replicates) for pc in plan.checks]
+    notes = [f"left out {s}" for s in plan.skipped]
+    notes.append(f"incomplete run: {reason}; {completed_of_planned(outcomes)}; no check finished: no verdict")
+    return Report(
+        command=command, source=stream.info().to_dict(), budget_bytes=plan.budget_bytes, alpha=alpha,
+        verdict=NO_VERDICT, combined_p=None, checks=[], incomplete=True,
+        elapsed_s=time.perf_counter() - (t0 if t0 is not None else time.perf_counter()), plan=plan.to_list(),
+        settings=dict(settings or {}, segments=plan.segments, shared_segments=plan.shared,
+                      borderline_factor=G.BORDERLINE_FACTOR),
+        notes=notes,
+    )
+
+
+def completed_of_planned(outcomes: list[Outcome]) -> str:
+    """What finished of what was planned, e.g. "completed 11 of 64 replicates (3 of 20 checks whole)"."""
+    planned = sum(len(o.results) for o in outcomes)
+    done = sum(1 for o in outcomes for r in o.results if r is not None)
+    whole = sum(1 for o in outcomes if o.results and all(r is not None for r in o.results))
+    return (f"completed {done} of {planned} replicates ({whole} of {len(outcomes)} checks whole)")
 
 
 def _round(r: G.RoundResult, o: Outcome) -> Round:

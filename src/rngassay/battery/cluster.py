@@ -43,11 +43,33 @@ def import_distributed():
     return distributed
 
 
+_SCHEMES = ("tcp", "tls", "ws", "wss", "ucx")
+
+
+def validate_address(address: str) -> str:
+    """Check the form of a scheduler address before any connection is tried: ``[SCHEME://]HOST:PORT`` with
+    SCHEME one of tcp, tls, ws, wss, ucx, HOST a name, IPv4 address or bracketed IPv6 address, and PORT
+    1..65535. Returns the address stripped; InputError (one line) for anything else, e.g. 'not a url'."""
+    import re
+
+    text = str(address or "").strip()
+    if not text:
+        raise InputError("empty --cluster address", "--cluster", _HINT)
+    shown = text if len(text) <= 80 else text[:80] + "..."
+    if text.startswith("inproc://") and not any(ch.isspace() for ch in text):  # an in-process test cluster
+        return text
+    m = re.fullmatch(r"(?:([A-Za-z][A-Za-z0-9+.-]*)://)?(\[[0-9A-Fa-f:.]+\]|[A-Za-z0-9_.-]+):([0-9]{1,5})",
+                     text, flags=re.ASCII)
+    if not m or (m.group(1) is not None and m.group(1).lower() not in _SCHEMES) or not 1 <= int(m.group(3)) <= 65535:
+        raise InputError(f"--cluster {shown!r} is not a scheduler address", "",
+                         "give SCHEME://HOST:PORT with SCHEME tcp, tls, ws, wss or ucx, e.g. tcp://10.0.0.5:8786")
+    return text
+
+
 def connect(address: str, timeout: float = CONNECT_TIMEOUT_S):
     """A ``distributed.Client`` connected to the scheduler at ``address``; InputError when unreachable."""
+    address = validate_address(address)
     distributed = import_distributed()
-    if not address or not str(address).strip():
-        raise InputError("empty --cluster address", "--cluster", _HINT)
     try:
         client = distributed.Client(address, timeout=f"{timeout}s", set_as_default=False)
     except (OSError, TimeoutError, ValueError) as e:

@@ -8,7 +8,10 @@ from __future__ import annotations
 
 import concurrent.futures as cf
 from concurrent.futures.process import BrokenProcessPool
+import contextlib
 import os
+import signal
+import threading
 import time
 from dataclasses import dataclass, field
 from typing import Any, Callable
@@ -21,6 +24,118 @@ from ..intake import views
 from ..intake.formats import Format
 from ..intake.stream import Stream
 from .plan import Plan, PlannedCheck
+
+
+# -- signals -------------------------------------------------------------------------------------------
+# SIGINT, SIGTERM and SIGHUP (Ctrl-C, a CI timeout, a closed terminal) end a run early but never lose it:
+# the first one raises :class:`Interrupted` (a KeyboardInterrupt) in the main thread, which `run_plan`
+# turns into an incomplete result; later ones are only recorded, so that grading and writing the reports
+# marked incomplete cannot be cut short by a second Ctrl-C. The exit status is 128 + the signal number.
+
+STOP_SIGNALS = tuple(getattr(signal, n) for n in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, n))
+WORKER_GRACE_S = 3.0  # after an interrupt: how long running worker tasks may take before workers are terminated
+
+
+class Interrupted(KeyboardInterrupt):
+    """A stop signal arrived; ``signum`` says which."""
+
+    def __init__(self, signum: int):
+        super().__init__(signal_name(signum))
+        self.signum = signum
+
+
+def signal_name(signum: int) -> str:
+    try:
+        return signal.Signals(signum).name
+    except ValueError:  # pragma: no cover
+        return f"signal {signum}"
+
+
+class _Guard:
+    depth = 0
+    received: int | None = None
+    deferred = False
+    saved: dict[int, Any] = {}
+
+
+def _on_signal(signum: int, frame: Any) -> None:
+    if _Guard.received is None:
+        _Guard.received = signum
+        if not _Guard.deferred:
+            raise Interrupted(signum)
+    # a second signal while the report is being made: recorded by the first, ignored
+
+
+@contextlib.contextmanager
+def armed():
+    """Within a :func:`signal_guard`: a stop signal raises :class:`Interrupted` here even when signals are
+    deferred around it (reading and checking data are interruptible); one that came while deferred raises
+    on entry. The deferral state is restored on exit."""
+    prev = _Guard.deferred
+    _Guard.deferred = False
+    try:
+        if _Guard.received is not None and _Guard.depth:
+            raise Interrupted(_Guard.received)
+        yield
+    finally:
+        _Guard.deferred = prev
+
+
+def signals_deferred() -> bool:
+    return _Guard.deferred
+
+
+def defer_signals(on: bool = True) -> None:
+    """While on (until turned off or the outermost :func:`signal_guard` ends), a stop signal is only
+    recorded: grading and writing the reports run to the end; the caller checks :func:`received_signal`."""
+    _Guard.deferred = on
+
+
+def received_signal() -> int | None:
+    """The stop signal that arrived inside the current :func:`signal_guard`, if any."""
+    return _Guard.received
+
+
+@contextlib.contextmanager
+def signal_guard(ignore_after_stop: bool = False):
+    """Turn SIGINT/SIGTERM/SIGHUP into one :class:`Interrupted` for the duration (nestable; main thread
+    only, elsewhere a no-op). The previous handlers are restored when the outermost guard ends -- unless
+    ``ignore_after_stop`` (the command line, about to exit) and a stop signal came: then later ones are
+    ignored, so that a repeated Ctrl-C cannot print a traceback on the way out."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    if _Guard.depth == 0:
+        _Guard.received = None
+        _Guard.deferred = False
+        _Guard.saved = {}
+        for s in STOP_SIGNALS:
+            try:
+                _Guard.saved[s] = signal.signal(s, _on_signal)
+            except (OSError, ValueError):  # pragma: no cover
+                pass
+    _Guard.depth += 1
+    try:
+        yield
+    finally:
+        _Guard.depth -= 1
+        if _Guard.depth == 0:
+            _Guard.deferred = False
+            stopped = ignore_after_stop and _Guard.received is not None
+            for s, h in _Guard.saved.items():
+                try:
+                    signal.signal(s, signal.SIG_IGN if stopped else h if h is not None else signal.SIG_DFL)
+                except (OSError, ValueError):  # pragma: no cover
+                    pass
+            _Guard.saved = {}
+
+
+def _worker_init() -> None:
+    """Worker processes leave stop signals to the main process (no tracebacks from workers on Ctrl-C); a
+    SIGTERM from the main process still ends them."""
+    for name, action in (("SIGINT", signal.SIG_IGN), ("SIGHUP", signal.SIG_IGN), ("SIGTERM", signal.SIG_DFL)):
+        if hasattr(signal, name):
+            signal.signal(getattr(signal, name), action)
 
 
 @dataclass
@@ -156,12 +271,38 @@ class Executor:
             import multiprocessing as mp
 
             ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
-            self._pool = cf.ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx)
+            self._pool = cf.ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx, initializer=_worker_init)
         return self
 
     def __exit__(self, *exc):
         if self._pool is not None:
-            self._pool.shutdown(wait=exc[0] is None, cancel_futures=True)
+            if exc[0] is None and not self.aborted:
+                self._pool.shutdown(wait=True, cancel_futures=True)
+            else:
+                self.abort()
+
+    aborted = False
+
+    def abort(self, grace: float = WORKER_GRACE_S) -> None:
+        """Stop the pool without waiting for its tasks: queued ones are cancelled, running workers get
+        ``grace`` seconds, then SIGTERM, then SIGKILL. Never hangs."""
+        self.aborted = True
+        pool = self._pool
+        if pool is None or not isinstance(pool, cf.ProcessPoolExecutor):
+            return
+        procs = list((getattr(pool, "_processes", None) or {}).values())
+        pool.shutdown(wait=False, cancel_futures=True)
+        deadline = time.monotonic() + grace
+        for p in procs:
+            p.join(max(0.0, deadline - time.monotonic()))
+        for p in procs:
+            if p.is_alive():
+                p.terminate()
+        for p in procs:
+            p.join(1.0)
+            if p.is_alive():  # pragma: no cover
+                p.kill()
+                p.join(1.0)
 
     def submit_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck], segment: int = 0) -> Any:
         """Start checks on one segment (spread over the workers in fixed slices); see :meth:`collect`."""
@@ -173,14 +314,16 @@ class Executor:
         futs = [self._pool.submit(_run_segment_task, vals, fmt, [checks[j] for j in s], segment) for s in slices]
         return ("futures", slices, futs, len(checks))
 
-    def collect(self, handle: Any) -> list:
-        """Results of a submitted segment, in plan order."""
+    def collect(self, handle: Any, timeout: float | None = None) -> list:
+        """Results of a submitted segment, in plan order (``timeout``: seconds to wait in all)."""
         if handle[0] == "done":
             return handle[1]
         _, slices, futs, n = handle
         out: list[Any] = [None] * n
+        end = None if timeout is None else time.monotonic() + timeout
         for sl, fut in zip(slices, futs):
-            for j, r in zip(sl, fut.result()):
+            left = None if end is None else max(0.0, end - time.monotonic())
+            for j, r in zip(sl, fut.result(left) if left is not None else fut.result()):
                 out[j] = r
         return out
 
@@ -198,7 +341,8 @@ def run_plan(
 ) -> tuple[list[Outcome], bool, str | None]:
     """Run (a subset of) the plan's checks over ``plan.segments`` fresh segments of the stream.
 
-    Returns (outcomes in plan order, complete?, reason when incomplete). Ctrl-C and a source that
+    Returns (outcomes in plan order, complete?, reason when incomplete). Ctrl-C (SIGINT, SIGTERM,
+    SIGHUP inside a :func:`signal_guard`; also one that came before the run started) and a source that
     dies mid-run end the run early: what finished is kept and the run is marked incomplete.
     """
     from ..errors import InputError
@@ -206,13 +350,17 @@ def run_plan(
     todo = list(checks if checks is not None else plan.checks)
     outcomes = [Outcome(pc, [None] * pc.replicates) for pc in todo]
     reason = None
+    prev_deferred = _Guard.deferred
     try:
+        _Guard.deferred = False
+        if _Guard.received is not None and _Guard.depth:
+            raise Interrupted(_Guard.received)
         if plan.shared:
             # read (and hash) segment j + 1 while the workers check segment j
             pending = None
 
-            def absorb(j: int, active: list[Outcome], handle: Any) -> None:
-                for o, (res, err, sec) in zip(active, executor.collect(handle)):
+            def absorb(j: int, active: list[Outcome], handle: Any, timeout: float | None = None) -> None:
+                for o, (res, err, sec) in zip(active, executor.collect(handle, timeout)):
                     o.bytes += o.check.bytes
                     o.seconds += sec
                     o.results[j] = res
@@ -229,11 +377,12 @@ def run_plan(
                     if pending is not None:
                         absorb(*pending)
                     pending = (j, active, handle)
-            except BaseException:
-                # keep what finished: the segment already being checked still counts
+            except BaseException as e:
+                # keep what finished: the segment already being checked still counts (after a stop
+                # signal it gets a grace period, then the workers are terminated)
                 if pending is not None:
                     try:
-                        absorb(*pending)
+                        absorb(*pending, timeout=WORKER_GRACE_S if isinstance(e, KeyboardInterrupt) else None)
                     except BaseException:
                         pass
                     pending = None
@@ -246,33 +395,54 @@ def run_plan(
                     progress(f"replicate {j + 1}/{plan.segments}: {len(todo)} checks on fresh data")
                 batch = []
                 active = [o for o in outcomes if j < o.check.replicates]
-                for o in active:
-                    n = o.check.bytes // plan.fmt.itemsize if plan.fmt.is_binary else o.check.bytes
-                    vals = stream.read_values(n)
-                    if vals.size < n:
-                        raise InputError(
-                            f"the source ended after {stream.bytes_read} bytes; this plan reads "
-                            f"{plan.bytes_total()} bytes (fresh data for every check)",
-                            stream.source.where,
-                            "give a smaller --budget or make the source produce more",
-                        )
-                    batch.append(vals)
-                    o.bytes += o.check.bytes
+                try:
+                    for o in active:
+                        n = o.check.bytes // plan.fmt.itemsize if plan.fmt.is_binary else o.check.bytes
+                        vals = stream.read_values(n)
+                        if vals.size < n:
+                            raise InputError(
+                                f"the source ended after {stream.bytes_read} bytes; this plan reads "
+                                f"{plan.bytes_total()} bytes (fresh data for every check)",
+                                stream.source.where,
+                                "give a smaller --budget or make the source produce more",
+                            )
+                        batch.append(vals)
+                except InputError:
+                    # the source died: the checks whose data was read in full still run on it
+                    if batch:
+                        part = active[: len(batch)]
+                        results = _run_fresh(executor, batch, plan.fmt, [o.check for o in part], j)
+                        for o, (res, err, sec) in zip(part, results):
+                            o.bytes += o.check.bytes
+                            o.seconds += sec
+                            o.results[j] = res
+                            if err:
+                                o.errors.append(f"replicate {j + 1}: {err}")
+                    raise
                 # fresh data per check: run each on its own data, spread over the workers
                 results = _run_fresh(executor, batch, plan.fmt, [o.check for o in active], j)
                 for o, (res, err, sec) in zip(active, results):
+                    o.bytes += o.check.bytes
                     o.seconds += sec
                     o.results[j] = res
                     if err:
                         o.errors.append(f"replicate {j + 1}: {err}")
-    except KeyboardInterrupt:
-        reason = "interrupted"
+    except KeyboardInterrupt as e:
+        signum = getattr(e, "signum", None) or received_signal()
+        reason = "interrupted" + (f" by {signal_name(signum)}" if signum else "")
+        executor.abort(grace=0.5)  # the segment being checked already had its grace period
     except InputError as e:
         # bad or missing data mid-run: keep what finished, and let the caller report the error
         e.partial = outcomes  # type: ignore[attr-defined]
         raise
     except BrokenProcessPool:
         reason = "a worker process died"
+        signum = received_signal()
+        if signum:  # the stop signal reached the workers first
+            reason = f"interrupted by {signal_name(signum)}"
+        executor.abort()
+    finally:
+        _Guard.deferred = prev_deferred
     return outcomes, reason is None, reason
 
 
@@ -284,6 +454,16 @@ def _run_fresh(executor: Executor, batch: list[np.ndarray], fmt: Format, checks:
 
 
 def _read_segment(stream: Stream, plan: Plan) -> np.ndarray:
-    if plan.fmt.is_binary:
-        return stream.read_exact(plan.segment_bytes // plan.fmt.itemsize)
-    return stream.read_exact(plan.segment_bytes)
+    from ..errors import InputError
+
+    n = plan.segment_bytes // plan.fmt.itemsize if plan.fmt.is_binary else plan.segment_bytes
+    vals = stream.read_values(n)  # an empty source raises "empty stream" here
+    if vals.size < n:  # a pipe or device planned for its --budget ended early
+        unit, have = ("bytes", stream.bytes_read) if plan.fmt.is_binary else ("values", stream.values_read)
+        raise InputError(
+            f"stream is shorter than the plan needs (it ended after {have} {unit}; "
+            f"the plan reads {plan.bytes_total()} {unit})",
+            stream.source.where,
+            "give a smaller --budget",
+        )
+    return vals

@@ -26,6 +26,16 @@ from ..errors import InputError
 BINARY_FORMATS = ("u1", "<u2", ">u2", "<u4", ">u4", "<u8", ">u8", "<f4", "<f8")
 FORMATS = BINARY_FORMATS + ("text",)
 
+#: Longest text token accepted (bytes): far beyond any printed number; a stream with no white space in
+#: this many bytes is not text of numbers (e.g. /dev/zero), and is refused instead of buffered without end.
+MAX_TOKEN_BYTES = 4096
+
+def _shown(tok: bytes, limit: int = 40) -> str:
+    """A token as an error line shows it: at most ``limit`` characters, the rest elided."""
+    t = tok[:limit].decode("ascii", "replace")
+    return t + f"... ({len(tok)} bytes)" if len(tok) > limit else t
+
+
 _FLOAT_HINT = "uniform floats must lie in [0, 1); check the producer's scaling or use another --format"
 
 
@@ -125,6 +135,16 @@ def parse_format(name: str | None, value_range: str | tuple[int, int] | None = N
     return Format(name, dt, dt.itemsize, kind)
 
 
+# Text numbers: tokens may use only printable ASCII; '_' (which Python's float() and int() accept as a digit
+# separator) is refused, as are non-ASCII digits (which they accept too): neither is how generators write numbers,
+# and both hide damage. A float token that reads as 0 must be a plain zero ('0', '0.0', '0e5'): '-0.0' (a sign
+# bug) and '1e-400' (underflow) are refused.
+_NOT_NUMBER_CHAR = re.compile(rb"[^\x21-\x7e\s]|_")
+_ZERO_TOKEN = re.compile(rb"\+?(?:0+\.?0*|\.0+)(?:[eE][+-]?[0-9]+)?")
+_INT_TOKEN = re.compile(rb"[+-]?[0-9]+")
+_BIG_NEG_EXPONENT = re.compile(rb"[eE]-0*[0-9]{3,}")  # e-100 and below: where float64 underflow starts to matter
+
+
 class Decoder:
     """Incremental decoder for one format. ``where`` names the source in error messages."""
 
@@ -170,6 +190,12 @@ class Decoder:
         # the last token may continue in the next chunk: keep everything after the last white space
         cut = max(buf.rfind(c) for c in (b" ", b"\n", b"\t", b"\r", b"\f", b"\v"))
         if cut < 0:
+            if len(buf) > MAX_TOKEN_BYTES:
+                raise InputError(
+                    f"no white space in {len(buf)} bytes of text: no number is that long",
+                    f"{self.where} line {self._line}",
+                    "text input must hold numbers separated by white space or newlines; check --format",
+                )
             self._carry = bytes(buf)
             return np.empty(0, dtype=self.fmt.dtype)
         body, self._carry = buf[: cut + 1], bytes(buf[cut + 1 :])
@@ -181,6 +207,10 @@ class Decoder:
         tokens = body.split()
         if not tokens:
             return np.empty(0, dtype=self.fmt.dtype)
+        odd = None if body.isascii() and b"_" not in body else _NOT_NUMBER_CHAR.search(body)  # fast path first
+        if odd is not None:  # '_' separators and non-ASCII digits: Python's float() reads them, we do not
+            self._refuse_token_at(body, first_line, odd.start(), "only ASCII digits, '.', 'e' and a sign are read "
+                                  "(no '_' digit separators, no non-ASCII digits)")
         try:
             if self.fmt.kind == "text-integers":
                 vals = np.array(tokens, dtype=np.int64)
@@ -204,7 +234,7 @@ class Decoder:
                 i = int(np.argmin(ok))
                 v = vals[i]
                 at = f"{self.where} line {self._line_of_token(body, first_line, i)}"
-                tok = tokens[i].decode("ascii", "replace")
+                tok = _shown(tokens[i])
                 if np.isnan(v):
                     raise InputError(f"NaN ({tok!r}) where a uniform float was expected", at, _FLOAT_HINT)
                 if np.isinf(v):
@@ -216,7 +246,31 @@ class Decoder:
                         "give --range LO:HI for integer outcomes (e.g. --range 1:6), or supply floats in [0, 1)",
                     )
                 raise InputError(f"float outside [0, 1): {tok}", at, _FLOAT_HINT)
+            negzero = np.signbit(vals)  # only -0.0 can have the sign bit here (all values are >= 0)
+            if negzero.any():
+                i = int(np.argmax(negzero))
+                raise InputError(f"negative zero {tokens[i][:40].decode('ascii', 'replace')!r} where a uniform float "
+                                 "in [0, 1) was expected", f"{self.where} line {self._line_of_token(body, first_line, i)}",
+                                 "a sign on zero points to a generator or formatting bug; write 0")
+            zero = vals == 0
+            if zero.any() and _BIG_NEG_EXPONENT.search(body):  # only then can a nonzero token underflow to 0.0
+                for i in np.flatnonzero(zero):
+                    tok = tokens[int(i)]
+                    if not _ZERO_TOKEN.fullmatch(tok):
+                        raise InputError(f"{tok[:40].decode('ascii', 'replace')!r} is not zero but underflows to 0.0 "
+                                         "in a 64-bit float",
+                                         f"{self.where} line {self._line_of_token(body, first_line, int(i))}",
+                                         "values below about 4.9e-324 cannot be told from 0; check the generator")
         return vals
+
+    def _refuse_token_at(self, body: bytes, first_line: int, pos: int, why: str) -> None:
+        a = max(body.rfind(ws, 0, pos) for ws in (b" ", b"\n", b"\t", b"\r", b"\f", b"\v")) + 1
+        m = re.match(rb"\S+", body[a:])
+        tok = m.group() if m else b""
+        line = first_line + body.count(b"\n", 0, a)
+        kind = "an integer" if self.fmt.kind == "text-integers" else "a number"
+        raise InputError(f"cannot read {tok[:40].decode('utf-8', 'replace')!r} as {kind}: {why}",
+                         f"{self.where} line {line}", "write plain decimal numbers separated by white space")
 
     def _line_of_token(self, body: bytes, first_line: int, index: int) -> int:
         for j, m in enumerate(re.finditer(rb"\S+", body)):
@@ -228,13 +282,22 @@ class Decoder:
         want_int = self.fmt.kind == "text-integers"
         for m in re.finditer(rb"\S+", body):
             tok = m.group()
-            try:
-                int(tok) if want_int else float(tok)
-                continue
-            except ValueError:
-                pass
             line = first_line + body.count(b"\n", 0, m.start())
-            shown = tok[:40].decode("utf-8", "replace")
+            shown = tok[:40].decode("utf-8", "replace") + ("..." if len(tok) > 40 else "")
+            if want_int and _INT_TOKEN.fullmatch(tok):
+                if -(2**63) <= int(tok) < 2**63:
+                    continue
+                raise InputError(
+                    f"integer {shown} outside --range {self.fmt.lo}:{self.fmt.hi}",
+                    f"{self.where} line {line}",
+                    "fix the value or widen --range",
+                )
+            try:
+                if not want_int:
+                    float(tok)
+                    continue
+            except (ValueError, OverflowError):
+                pass
             if want_int:
                 raise InputError(
                     f"cannot read {shown!r} as an integer",

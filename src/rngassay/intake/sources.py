@@ -86,7 +86,8 @@ class FileSource(RawSource):
             try:
                 b = self._f.read(n - got)
             except OSError as e:
-                raise InputError(f"read error: {e.strerror}", self.name, "check the file and device") from None
+                raise _with_partial(InputError(f"read error: {e.strerror}", self.name, "check the file and device"),
+                                    b"".join(parts)) from None
             if not b:
                 break
             parts.append(b)
@@ -177,23 +178,34 @@ class CommandSource(RawSource):
             parts.append(b)
             got += len(b)
         self._total += got
+        data = parts[0] if len(parts) == 1 else b"".join(parts)
         if got < n:
-            rc = self._p.wait()
+            try:
+                rc = self._p.wait(timeout=COMMAND_EXIT_TIMEOUT_S)
+            except subprocess.TimeoutExpired:
+                # it closed its standard output but keeps running: end it, the data it wrote counts
+                self.close()
+                raise _with_partial(InputError(
+                    f"command closed its standard output after {self._total} bytes but did not exit within "
+                    f"{COMMAND_EXIT_TIMEOUT_S:g} s; it was ended",
+                    f"--command {self.name!r}",
+                    "make the command exit when it stops writing, or give a smaller --budget",
+                ), data)
             tail = self._tail()
             extra = f"; its stderr ends: {tail}" if tail else ""
             if rc != 0:
-                raise InputError(
+                raise _with_partial(InputError(
                     f"command exited with status {rc} after {self._total} bytes{extra}",
                     f"--command {self.name!r}",
                     "fix the command or run it by hand to see why",
-                )
+                ), data)
             if self._total == 0:
                 raise InputError(
                     f"command produced no output{extra}",
                     f"--command {self.name!r}",
                     "make it write its random bytes to standard output",
                 )
-        return parts[0] if len(parts) == 1 else b"".join(parts)
+        return data
 
     def close(self) -> None:
         if self._closed:
@@ -211,6 +223,16 @@ class CommandSource(RawSource):
             except subprocess.TimeoutExpired:  # pragma: no cover
                 self._p.kill()
                 self._p.wait()
+
+
+COMMAND_EXIT_TIMEOUT_S = 5.0  # a command that closed its output gets this long to exit before it is ended
+
+
+def _with_partial(e: InputError, data: bytes) -> InputError:
+    """Attach the bytes a failing read had already taken (``e.partial_bytes``): the stream hashes and
+    counts them, so the byte count and SHA-256 cover every byte consumed."""
+    e.partial_bytes = data  # type: ignore[attr-defined]
+    return e
 
 
 class ArraySource(RawSource):
@@ -231,15 +253,22 @@ class ArraySource(RawSource):
         while got < n:
             try:
                 drawn = self._draw(n - got)
-            except InputError:
+            except InputError as e:
+                raise _with_partial(e, b"".join(out))
+            except KeyboardInterrupt:
                 raise
-            except Exception as e:  # the user's generator failed mid-stream: a dying source
-                raise InputError(
-                    f"the generator raised {type(e).__name__}: {e} after {got} bytes of this read",
+            except (Exception, SystemExit, GeneratorExit) as e:  # the user's generator died mid-stream
+                what = f"exited (SystemExit {e.code!r})" if isinstance(e, SystemExit) else f"raised {type(e).__name__}"
+                msg = f": {e}" if str(e) and not isinstance(e, SystemExit) else ""
+                raise _with_partial(InputError(
+                    f"the generator {what}{msg} after {got} bytes of this read",
                     f"--python {self.name}" if self.kind == "python" else self.name,
-                    "fix the generator; the report written so far is marked incomplete",
-                ) from None
-            b = _as_bytes(drawn, self.name)
+                    "fix the generator",
+                ), b"".join(out)) from None
+            try:
+                b = _as_bytes(drawn, self.name)
+            except InputError as e:
+                raise _with_partial(e, b"".join(out))
             if not b:
                 break
             if len(b) > n - got:

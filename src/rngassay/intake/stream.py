@@ -61,7 +61,17 @@ class Stream:
         return self.source.unlimited
 
     def _pull(self, nbytes: int) -> bytes:
-        b = self.source.read(nbytes)
+        try:
+            b = self.source.read(nbytes)
+        except InputError as e:
+            # a source that dies mid-read: what it gave before dying was consumed, so it is counted and hashed
+            part = getattr(e, "partial_bytes", b"")
+            if part:
+                self._sha.update(part)
+                self.bytes_read += len(part)
+                e.partial_bytes = b""  # type: ignore[attr-defined]
+            self.ended = True
+            raise
         if b:
             self._sha.update(b)
             self.bytes_read += len(b)

@@ -1,5 +1,8 @@
 """Compare two reports check by check (``rngassay diff BASE NEW``), matching checks by id.
 
+A report whose checks repeat an id is refused (ValueError): a later passing duplicate must not hide an
+earlier failure. (:func:`rngassay.report.files.read_report_json` refuses it earlier, with the file name.)
+
 Each check gets one change label, decided in this order:
 
 1. ``added`` (only in NEW) / ``removed`` (only in BASE);
@@ -122,11 +125,22 @@ def _compare(cid: str, b: dict[str, Any] | None, n: dict[str, Any] | None) -> Di
     return DiffRow(cid, bg, bp, ng, np_, change, delta, worse)
 
 
+def _by_id(report: dict[str, Any], which: str) -> dict[str, dict[str, Any]]:
+    """The report's checks by id; a repeated id is damage (a later passing duplicate must never hide an
+    earlier failure), so it raises ValueError."""
+    out: dict[str, dict[str, Any]] = {}
+    for c in report.get("checks", []):
+        if c["id"] in out:
+            raise ValueError(f"the {which} report lists check {c['id']!r} twice; a damaged report cannot be compared")
+        out[c["id"]] = c
+    return out
+
+
 def diff_reports(base: dict[str, Any] | Report, new: dict[str, Any] | Report) -> DiffResult:
     """Compare NEW against BASE check by check (matched by id); see the module docstring for the rules."""
     b, n = _as_dict(base), _as_dict(new)
-    bchecks = {c["id"]: c for c in b.get("checks", [])}
-    nchecks = {c["id"]: c for c in n.get("checks", [])}
+    bchecks = _by_id(b, "base")
+    nchecks = _by_id(n, "new")
     ids = list(nchecks) + [i for i in bchecks if i not in nchecks]
     rows = [_compare(i, bchecks.get(i), nchecks.get(i)) for i in ids]
     rank = {k: i for i, k in enumerate(_ORDER)}

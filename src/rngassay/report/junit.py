@@ -7,7 +7,10 @@ Mapping (so that a CI job turns red exactly when the assay found a failure):
   (not ``<skipped>``: the check did run, and skipped cases are easy to overlook or are treated as
   "not run" by CI dashboards; use ``--strict`` at the command line to make borderline fail the job);
 - grade ``fail``        -> a ``<failure>`` whose message gives the p-value and the Holm-adjusted p-value;
-- a check that could not run (``error`` set) -> an ``<error>`` element with the reason.
+- a check that could not run (``error`` set) -> an ``<error>`` element with the reason;
+- an incomplete run, or one in which no check finished (verdict "no verdict") -> one more testcase,
+  ``run complete``, with an ``<error>`` saying what completed of what was planned (never ``tests="0"``
+  with success).
 
 The suite is named ``rngassay``; its ``<properties>`` record the source (``source.sha256``,
 ``source.bytes_read``, ``source.kind``, ``source.name``, ``source.format``) and the run (``verdict``,
@@ -63,15 +66,19 @@ def render_junit(report: Report) -> str:
     src = r.source or {}
     n_fail = sum(1 for c in r.checks if c.grade == "fail" and not c.error)
     n_err = sum(1 for c in r.checks if c.error)
+    # an incomplete run (or one where nothing finished) is never green: it gets an <error> case of its own
+    stopped = r.incomplete or not r.checks
+    n_tests = len(r.checks) + (1 if stopped else 0)
+    n_err += 1 if stopped else 0
     root = ET.Element(
         "testsuites",
-        {"name": "rngassay", "tests": str(len(r.checks)), "failures": str(n_fail), "errors": str(n_err),
+        {"name": "rngassay", "tests": str(n_tests), "failures": str(n_fail), "errors": str(n_err),
          "time": f"{r.elapsed_s:.3f}"},
     )
     suite = ET.SubElement(
         root,
         "testsuite",
-        {"name": "rngassay", "tests": str(len(r.checks)), "failures": str(n_fail), "errors": str(n_err),
+        {"name": "rngassay", "tests": str(n_tests), "failures": str(n_fail), "errors": str(n_err),
          "skipped": "0", "time": f"{r.elapsed_s:.3f}"},
     )
     props = ET.SubElement(suite, "properties")
@@ -104,6 +111,11 @@ def render_junit(report: Report) -> str:
                 f"borderline: {_message(c)}. The evidence is not strong enough to fail this check but is "
                 "stronger than a pass; more data (a larger budget) can settle it.\n" + _details(c)
             )
+    if stopped:
+        why = (r.incomplete_reason() or "no check finished") if r.incomplete else "no check finished"
+        case = ET.SubElement(suite, "testcase", {"classname": "rngassay.run", "name": "run complete"})
+        el = ET.SubElement(case, "error", {"message": _x(f"incomplete run: {why}"), "type": "incomplete"})
+        el.text = _x(f"verdict: {r.verdict}\n{why}")
     summary = [f"verdict: {r.verdict}", f"combined p = {format_p(r.combined_p)} ({r.combined_method})"]
     if r.incomplete:
         summary.append("incomplete: the run stopped early; only the checks that finished are listed.")

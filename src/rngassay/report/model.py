@@ -13,6 +13,7 @@ from .. import __version__
 
 SCHEMA = "rngassay-report/1"
 GRADES = ("pass", "borderline", "fail")
+NO_VERDICT = "no verdict"  # the run's verdict when no check finished (an interrupted or dying source)
 
 CAUTIONS = (
     "A pass means these checks found no evidence against randomness at the sample size used; it is not a proof.",
@@ -81,9 +82,21 @@ class Report:
 
     # -- outcomes ------------------------------------------------------------------------------
     def exit_code(self, strict: bool = False) -> int:
+        """0 pass (and borderline unless strict), 1 fail, 2 "no verdict" (nothing finished: never green)."""
         if self.verdict == "fail" or (strict and self.verdict == "borderline"):
             return 1
+        if self.verdict == NO_VERDICT:
+            return 2
         return 0
+
+    def incomplete_reason(self) -> str | None:
+        """Why the run stopped early and what completed of what was planned (None for a complete run)."""
+        if not self.incomplete:
+            return None
+        for n in self.notes:
+            if n.startswith("incomplete run: "):
+                return n[len("incomplete run: "):]
+        return "the run stopped early"
 
     def worst_first(self) -> list[CheckReport]:
         order = {"fail": 0, "borderline": 1, "pass": 2}

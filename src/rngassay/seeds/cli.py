@@ -27,11 +27,30 @@ def _ints(text: str, option: str) -> tuple[int, ...]:
     return out
 
 
+MAX_BYTES_PER_SEED = 16 << 20  # a block of 32 seeds' streams stays near 0.5 GiB per task
+MAX_LAGS = 1024  # cross-correlation lags; the cost grows with lags times values per seed
+
+
+def _bounded_sizes(bytes_per_seed: str, lags: int) -> int:
+    """Bound --bytes-per-seed and --lags before anything is allocated; return the byte count."""
+    from ..errors import InputError
+    from ..sizes import format_size, parse_size
+
+    b = parse_size(bytes_per_seed, "--bytes-per-seed")
+    if b > MAX_BYTES_PER_SEED:
+        raise InputError(f"--bytes-per-seed {bytes_per_seed} is above the maximum of {format_size(MAX_BYTES_PER_SEED)}",
+                         "", "sweep more seeds rather than longer streams, e.g. --bytes-per-seed 1MiB")
+    if lags > MAX_LAGS or (lags >= 0 and lags >= b // 8):
+        raise InputError(f"--lags {lags} is too large: at most {MAX_LAGS} and below the {b // 8} values per seed",
+                         "", "e.g. --lags 8")
+    return b
+
+
 def register_cli(group: click.Group) -> click.Command:
     """Add the ``seeds`` command to ``group`` (once) and return it."""
     if "seeds" in group.commands:
         return group.commands["seeds"]
-    from ..cli import Progress, _check_outputs, _report_options, _split, finish
+    from ..cli import Progress, _check_outputs, _report_options, _split, check_workers, finish, input_paths
 
     sets = "; ".join(f"{k}: {v}" for k, v in SEED_SETS.items())
 
@@ -91,13 +110,13 @@ def register_cli(group: click.Group) -> click.Command:
         from ..errors import InputError
         from .sweep import sweep_seeds
 
-        if workers is not None and workers < 1:
-            raise InputError(f"--workers must be at least 1, got {workers}", "", "e.g. --workers 2")
-        if cluster is not None and workers is not None:
-            raise InputError("--workers and --cluster given", "", "the cluster's workers do the work; drop --workers")
+        check_workers(workers, cluster)
+        bytes_per_seed = _bounded_sizes(bytes_per_seed, lags)
         if avalanche_seeds is not None and avalanche_seeds < 0:
             raise InputError(f"--avalanche-seeds must be >= 0, got {avalanche_seeds}", "", "e.g. 128")
-        outputs = _check_outputs(json_path, html_path, junit_path)
+        seeds_file = (seeds_spec[1:],) if seeds_spec and seeds_spec.startswith("@") else ()
+        outputs = _check_outputs(json_path, html_path, junit_path,
+                                 input_paths(None, command, shell, python_spec, seeds_file))
         progress = Progress(quiet)
         try:
             report = sweep_seeds(
