@@ -267,3 +267,11 @@ def test_many_checks_stay_bounded():
         png = getattr(figures, {"bars": "check_bars", "heatmap": "replicate_heatmap"}[name])(r)
         w, h = _png_size(png)
         assert h <= 100 * (2.0 + 0.17 * figures.MAX_ROWS) + 1, name
+
+
+def test_control_characters_never_reach_the_html_raw():
+    # a file name with ESC and a bell in it (wave 2b): shown escaped in the page
+    from rngassay.report.html import _e
+
+    assert _e("a\x1b[31mb\x07c<") == "a\\x1b[31mb\\x07c&lt;"
+    assert "\x1b" not in _e("x\x1by") and _e("plain") == "plain"

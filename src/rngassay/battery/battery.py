@@ -33,6 +33,8 @@ def run_battery(
     notes: list[str] = list(f"left out {s}" for s in plan.skipped)
     stop_error = None
     prev_deferred = signals_deferred()
+    if executor is None and workers is not None:
+        workers = max(1, min(workers, len(plan.checks)))  # no more worker processes than checks
     with signal_guard(), (executor if executor is not None else Executor(workers)) as ex:
         try:
             outcomes, complete, reason = run_plan(stream, plan, ex, progress=progress)

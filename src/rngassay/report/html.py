@@ -61,7 +61,12 @@ def format_count(n: Any) -> str:
 
 
 def _e(x: Any) -> str:
-    return html.escape("" if x is None else str(x), quote=True)
+    """Escaped for HTML; control characters (from file names, generator names) shown escaped, never raw."""
+    t = "" if x is None else str(x)
+    if not t.isprintable():
+        t = "".join(ch if ch.isprintable() or ch in "\n" else ch.encode("unicode_escape", "backslashreplace")
+                    .decode("ascii") for ch in t)
+    return html.escape(t, quote=True)
 
 
 def _bytes_cell(n: Any) -> str:
