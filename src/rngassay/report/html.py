@@ -84,6 +84,7 @@ def _grade_cell(grade: str) -> str:
 
 
 _CSS = """
+.wide { overflow-x: auto; }  /* a narrow window scrolls the tables instead of cutting them */
 :root { --ink:#1f2328; --muted:#5b6570; --line:#d8dde3; --bg:#fbfbfa;
         --pass:#2f7350; --borderline:#a86d07; --fail:#a8322b; }
 * { box-sizing: border-box; }
@@ -199,7 +200,7 @@ def _check_table(r: Report) -> list[str]:
     num = {"p-value", "Holm-adjusted p", unit, "replicates"}
     out = [
         "<h2>Checks, worst first</h2>",
-        "<table class=\"checks\"><thead><tr>"
+        "<div class=\"wide\"><table class=\"checks\"><thead><tr>"
         + "".join(f'<th class="num">{h}</th>' if h in num else f"<th>{h}</th>" for h in head)
         + "</tr></thead><tbody>",
     ]
@@ -220,7 +221,7 @@ def _check_table(r: Report) -> list[str]:
         out.append("<tr>" + "".join(cells) + "</tr>")
         if c.error:
             out.append(f'<tr class="err"><td colspan="{len(head)}">could not run: {_e(c.error)}</td></tr>')
-    out.append("</tbody></table>")
+    out.append("</tbody></table></div>")
     return out
 
 
@@ -267,7 +268,7 @@ def _plan(r: Report) -> list[str]:
         return []
     out = [
         "<h2>Plan</h2>",
-        "<table class=\"plan\"><thead><tr><th>check</th><th>family</th><th>parameters</th><th>view</th>"
+        "<div class=\"wide\"><table class=\"plan\"><thead><tr><th>check</th><th>family</th><th>parameters</th><th>view</th>"
         '<th class="num">bytes</th><th class="num">replicates</th></tr></thead><tbody>',
     ]
     for item in r.plan:
@@ -282,7 +283,7 @@ def _plan(r: Report) -> list[str]:
             f'<td class="num">{_e(item.get("replicates", ""))}</td>'
             "</tr>"
         )
-    out.append("</tbody></table>")
+    out.append("</tbody></table></div>")
     return out
 
 
