@@ -15,8 +15,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from rngassay.generators._common import check_seed
-from rngassay.generators.base import ByteStreamGenerator
+from rngassay.generators.classic import _KernelWords  # seed check, state, numba kernel -> words
 
 LCG48_A = 0x5DEECE66D
 LCG48_C = 0xB
@@ -51,29 +50,7 @@ def _lcg48_doubles_kernel(state: np.uint64, count: int) -> tuple[np.ndarray, np.
     return out, x
 
 
-class _Lcg48Base(ByteStreamGenerator):
-    name = ""
-
-    def __init__(self, seed: int) -> None:
-        super().__init__()
-        self.seed = check_seed(seed, self.name)
-        self.state = self.initial_state(self.seed)
-
-    @staticmethod
-    def initial_state(seed: int) -> int:  # pragma: no cover - abstract
-        raise NotImplementedError
-
-    @staticmethod
-    def _kernel(state: np.uint64, count: int) -> tuple[np.ndarray, np.uint64]:  # pragma: no cover
-        raise NotImplementedError
-
-    def _next_words(self, count: int) -> np.ndarray:
-        values, state = type(self)._kernel(np.uint64(self.state), int(count))
-        self.state = int(state)
-        return values.astype(self.word_dtype, copy=False)
-
-
-class Lcg48Stream(_Lcg48Base):
+class Lcg48Stream(_KernelWords):
     """``lcg48`` (flawed): the drand48 LCG emitting bits 47..16 of each new state as a ``<u4`` word.
 
     Definition: POSIX ``drand48`` family (The Open Group Base Specifications), a = 0x5DEECE66D,
@@ -95,7 +72,7 @@ class Lcg48Stream(_Lcg48Base):
     _kernel = staticmethod(_lcg48_words_kernel)
 
 
-class Lcg48DoublesStream(_Lcg48Base):
+class Lcg48DoublesStream(_KernelWords):
     """``lcg48-doubles`` (flawed): the drand48 LCG emitting X_{n+1} / 2**48 as ``<f8`` doubles in [0, 1).
 
     Definition: POSIX ``drand48``, which returns the new 48-bit state divided by 2**48. Every value

@@ -66,7 +66,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from rngassay.checks.classic.birthday import spacing_repeats
+from rngassay.checks.classic.birthday import _stirling2_col, spacing_repeats
 from rngassay.checks.registry import CheckSpec, check_id, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
@@ -94,20 +94,6 @@ MIN_CELL_BITS = 40
 def wide_lambda(n: int, cells: int) -> float:
     """Asymptotic Poisson mean n^3 / (4 k)."""
     return float(n) ** 3 / (4.0 * float(cells))
-
-
-@lru_cache(maxsize=None)
-def _stirling2_col(j: int, tmax: int) -> tuple[int, ...]:
-    """S(t, j) for t = 0..tmax (Stirling numbers of the second kind, exact integers)."""
-    row = [1] + [0] * j
-    col = [row[j]]
-    for t in range(1, tmax + 1):
-        new = [0] * (j + 1)
-        for r in range(1, min(t, j) + 1):
-            new[r] = r * row[r] + row[r - 1]
-        row = new
-        col.append(row[j])
-    return tuple(col)
 
 
 def _log_occupancy(j: int, e: np.ndarray, n: int, k: float) -> np.ndarray:
