@@ -66,7 +66,11 @@ import numpy as np
 
 from .checks.result import CheckResult
 from .errors import InputError
+from .intake.formats import MAX_TOKEN_BYTES
 from .intake.views import decimal_grid  # noqa: F401  (also re-exported for callers of fitting)
+
+#: bytes that never belong to a number token (in numeric mode): '_' and anything outside printable ASCII
+_NOT_A_NUMBER_BYTE = re.compile(rb"[_\x80-\xff]")
 from .report.model import CAUTIONS, CheckReport, Report, Round
 
 #: Default seed of the randomised PIT (discrete declarations).
@@ -362,6 +366,10 @@ class _TextParser:
         else:
             cut = max(buf.rfind(c) for c in (b" ", b"\n", b"\t", b"\r", b"\f", b"\v"))
             if cut < 0:
+                if len(buf) > MAX_TOKEN_BYTES:  # e.g. /dev/zero: refused, not buffered without end
+                    raise InputError(f"no white space in {len(buf)} bytes of text: no value is that long",
+                                     f"{self.where} line {self.line}",
+                                     "values must be separated by white space or newlines; check --format")
                 self.carry = bytes(buf)
                 return np.empty(0)
             body, self.carry = buf[: cut + 1], bytes(buf[cut + 1:])
@@ -394,6 +402,12 @@ class _TextParser:
                 codes[j] = c
             vals = codes[inv.ravel()]
         else:
+            odd = _NOT_A_NUMBER_BYTE.search(body)
+            if odd:  # float() also takes '_' between digits and non-ASCII digits; a sampler writes neither
+                i = next(j for j, m in enumerate(re.finditer(rb"\S+", body)) if m.end() > odd.start())
+                shown = tokens[i][:40].decode("utf-8", "replace")
+                raise InputError(f"cannot read {shown!r} as a number: only ASCII digits, '.', 'e' and a sign are read",
+                                 f"{self.where} line {self._line_of(body, i)}", "write plain decimal numbers")
             try:
                 vals = np.array(tokens, dtype=np.float64)
             except (ValueError, OverflowError):
