@@ -26,3 +26,24 @@ def test_fit_still_reads_negative_zero_and_labels(run_cli, tmp_path):
     draws = tmp_path / "d.txt"
     draws.write_text(("été hiver " * 100) + "\n", encoding="utf-8")
     assert run_cli("fit", str(draws), "--odds", str(odds)).code in (0, 1)
+
+
+def test_fit_interrupted_during_its_checks_reports_what_finished(monkeypatch):
+    # a stop signal (KeyboardInterrupt, as the signal guard raises it) in the middle of the fit checks: the
+    # fit returns a report marked incomplete, with the checks that finished, and never a silent pass
+    import numpy as np
+
+    from rngassay import fitting
+
+    def stop(*a, **k):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(fitting, "extreme_value_check", stop)
+    x = np.random.default_rng(4).normal(size=5000)
+    rep = fitting.fit(x, dist="norm")
+    assert rep.incomplete
+    assert any("interrupted during the fit checks" in n for n in rep.notes)
+    assert {c.key for c in rep.checks} >= {"anderson-darling"} and not any(c.id.startswith("pit:") for c in rep.checks)
+    monkeypatch.setattr(fitting, "anderson_darling_check", stop)
+    rep0 = fitting.fit(x, dist="norm")
+    assert rep0.verdict == "no verdict" and rep0.exit_code() == 2

@@ -71,7 +71,7 @@ from .intake.views import decimal_grid  # noqa: F401  (also re-exported for call
 
 #: bytes that never belong to a number token (in numeric mode): '_' and anything outside printable ASCII
 _NOT_A_NUMBER_BYTE = re.compile(rb"[_\x80-\xff]")
-from .report.model import CAUTIONS, CheckReport, Report, Round
+from .report.model import CAUTIONS, NO_VERDICT, CheckReport, Report, Round
 
 #: Default seed of the randomised PIT (discrete declarations).
 DEFAULT_PIT_SEED = 20240917
@@ -1021,6 +1021,64 @@ def fit_values(
         if fc is not None:
             fit_checks.append(fc)
 
+    interrupted = False
+    try:
+        u = _fit_checks(decl, x, n, pit_seed, attempt, fit_checks, settings, notes)
+    except KeyboardInterrupt:  # a stop signal (Ctrl-C, SIGTERM, SIGHUP): report what finished
+        interrupted, u = True, None
+        notes.append(f"incomplete run: interrupted during the fit checks; {len(fit_checks)} finished, the PIT "
+                     "battery did not run; the verdict covers only what finished")
+    # selection of the fit-specific checks
+    fit_checks = [fc for fc in fit_checks
+                  if (checks is None or _matches(fc.key, fc.id, "fit", checks))
+                  and not (skip and _matches(fc.key, fc.id, "fit", skip))]
+    nbytes = int(var.source.get("bytes_read", 0))
+    reports = [_fit_report(fc, nbytes) for fc in fit_checks]
+    plan_items = [{"id": fc.id, "key": fc.key, "family": "fit", "view": "variates", "params": fc.params,
+                   "values": n, "bytes": nbytes, "replicates": 1} for fc in fit_checks]
+    incomplete = interrupted
+    # the uniform battery on the PIT values
+    if battery and not interrupted:
+        pit_rep = _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes)
+        if pit_rep is not None:
+            incomplete = incomplete or pit_rep.incomplete  # an interrupted PIT battery makes the fit incomplete
+            for c in pit_rep.checks:
+                c.id = f"pit: {c.id}"
+            reports.extend(pit_rep.checks)
+            plan_items.extend({**item, "id": f"pit: {item['id']}"} for item in pit_rep.plan)
+            # the battery's "left out ..." notes keep their prefix (renderers list them apart)
+            notes.extend(f"left out pit: {s[len('left out '):]}" if s.startswith("left out ") else
+                         (s if s.startswith("incomplete run: ") else f"PIT battery: {s}") for s in pit_rep.notes)
+            settings["pit_battery"] = {k: pit_rep.settings.get(k) for k in ("segments", "shared_segments")}
+            settings["pit_battery"]["bytes"] = pit_rep.budget_bytes
+    elif not battery:
+        notes.append("the uniform battery on the PIT values was not run (fit-specific checks only)")
+    if not reports and not interrupted:
+        raise InputError("no check matched the selection", "", "see the check names in a full run, or drop --checks/--skip")
+    from .battery.run import defer_signals
+
+    defer_signals()  # a later stop signal is recorded, not raised: grading and the reports run to the end
+    # Holm across everything
+    graded = [c for c in reports if c.error is None]
+    grades, adj = G.holm_grades([c.p_value for c in graded], alpha)
+    for c, g, a in zip(graded, grades, adj):
+        c.grade, c.adjusted_p = g, a
+    for c in reports:
+        if c.error is not None:
+            c.grade, c.adjusted_p = "fail", None
+    settings.update({"alpha": alpha, "multiple_testing": "Holm over fit and PIT battery checks together",
+                     "borderline_factor": G.BORDERLINE_FACTOR, "workers_used": workers})
+    return Report(
+        command="fit", source=var.source, budget_bytes=nbytes, alpha=alpha,
+        verdict=G.run_verdict([c.grade for c in reports]) if reports else NO_VERDICT,
+        combined_p=G.combined_p([c.p_value for c in graded]), checks=reports, incomplete=incomplete,
+        elapsed_s=time.perf_counter() - t0, plan=plan_items, settings=settings, notes=notes,
+        cautions=list(FIT_CAUTIONS),
+    )
+
+
+def _fit_checks(decl, x, n, pit_seed, attempt, fit_checks, settings, notes) -> np.ndarray:
+    """The fit-specific checks (appended to ``fit_checks``) and the PIT values for the battery."""
     if decl.kind == "continuous":
         lf, ls = tail_log_areas(decl.frozen, x)
         attempt("anderson-darling", lambda: anderson_darling_check(lf, ls))
@@ -1054,48 +1112,7 @@ def fit_values(
         settings["pit"] = "randomised probability integral transform u = F(x-1) + V P(x)"
         settings["pit_seed"] = int(pit_seed)
         settings["outcomes"] = len(cats.labels)
-    # selection of the fit-specific checks
-    fit_checks = [fc for fc in fit_checks
-                  if (checks is None or _matches(fc.key, fc.id, "fit", checks))
-                  and not (skip and _matches(fc.key, fc.id, "fit", skip))]
-    nbytes = int(var.source.get("bytes_read", 0))
-    reports = [_fit_report(fc, nbytes) for fc in fit_checks]
-    plan_items = [{"id": fc.id, "key": fc.key, "family": "fit", "view": "variates", "params": fc.params,
-                   "values": n, "bytes": nbytes, "replicates": 1} for fc in fit_checks]
-    # the uniform battery on the PIT values
-    if battery:
-        pit_rep = _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes)
-        if pit_rep is not None:
-            for c in pit_rep.checks:
-                c.id = f"pit: {c.id}"
-            reports.extend(pit_rep.checks)
-            plan_items.extend({**item, "id": f"pit: {item['id']}"} for item in pit_rep.plan)
-            # the battery's "left out ..." notes keep their prefix (renderers list them apart)
-            notes.extend(f"left out pit: {s[len('left out '):]}" if s.startswith("left out ") else f"PIT battery: {s}"
-                         for s in pit_rep.notes)
-            settings["pit_battery"] = {k: pit_rep.settings.get(k) for k in ("segments", "shared_segments")}
-            settings["pit_battery"]["bytes"] = pit_rep.budget_bytes
-    else:
-        notes.append("the uniform battery on the PIT values was not run (fit-specific checks only)")
-    if not reports:
-        raise InputError("no check matched the selection", "", "see the check names in a full run, or drop --checks/--skip")
-    # Holm across everything
-    graded = [c for c in reports if c.error is None]
-    grades, adj = G.holm_grades([c.p_value for c in graded], alpha)
-    for c, g, a in zip(graded, grades, adj):
-        c.grade, c.adjusted_p = g, a
-    for c in reports:
-        if c.error is not None:
-            c.grade, c.adjusted_p = "fail", None
-    settings.update({"alpha": alpha, "multiple_testing": "Holm over fit and PIT battery checks together",
-                     "borderline_factor": G.BORDERLINE_FACTOR, "workers_used": workers})
-    return Report(
-        command="fit", source=var.source, budget_bytes=nbytes, alpha=alpha,
-        verdict=G.run_verdict([c.grade for c in reports]),
-        combined_p=G.combined_p([c.p_value for c in graded]), checks=reports, incomplete=False,
-        elapsed_s=time.perf_counter() - t0, plan=plan_items, settings=settings, notes=notes,
-        cautions=list(FIT_CAUTIONS),
-    )
+    return u
 
 
 def _fit_report(fc: FitCheck, nbytes: int) -> CheckReport:
