@@ -176,3 +176,26 @@ def test_short_pipe_with_a_budget_is_exit_2_with_a_partial_report(monkeypatch, r
     assert "stream is shorter than the plan needs" in line
     if j.exists():  # segments that finished are reported, marked incomplete
         assert json.loads(j.read_text())["incomplete"] is True
+
+
+def test_ending_a_command_ends_what_it_started(tmp_path):
+    # a --command run through a shell that leaves a background child behind: when the run is done with the
+    # source, the whole process group is ended (wave 2b: no grandchildren left running)
+    import os
+    import time
+
+    from rngassay import api
+
+    marker = "61.4321"  # an unusual sleep length to find the grandchild by
+    cmd = f"sh -c 'sleep {marker} & exec head -c 1048576 /dev/urandom; wait'"
+    api.assay(command=cmd, shell=True, budget="64KiB", checks=["byte frequency"])
+    time.sleep(0.3)
+    left = []
+    for d in os.listdir("/proc"):  # the processes whose command line holds the marker (Linux)
+        try:
+            with open(f"/proc/{d}/cmdline", "rb") as f:
+                if f"sleep\0{marker}".encode() in f.read():
+                    left.append(d)
+        except (OSError, ValueError):
+            continue
+    assert left == []

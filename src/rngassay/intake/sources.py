@@ -13,6 +13,7 @@ import importlib.util
 import inspect
 import os
 import shlex
+import signal
 import subprocess
 import sys
 import threading
@@ -141,7 +142,8 @@ class CommandSource(RawSource):
             raise InputError(f"cannot parse --command: {e}", "", "check the quoting") from None
         try:
             self._p = subprocess.Popen(
-                args, shell=shell, stdin=subprocess.DEVNULL, stdout=subprocess.PIPE, stderr=subprocess.PIPE, bufsize=0
+                args, shell=shell, stdin=subprocess.DEVNULL, stdout=subprocess.PIPE, stderr=subprocess.PIPE, bufsize=0,
+                start_new_session=True,  # its own process group: ending it ends what it started too
             )
         except FileNotFoundError:
             prog = args if shell else args[0]
@@ -216,13 +218,21 @@ class CommandSource(RawSource):
                 self._p.stdout.close()
         except OSError:  # pragma: no cover
             pass
-        if self._p.poll() is None:
-            self._p.terminate()
+        running = self._p.poll() is None
+        self._signal_group(signal.SIGTERM)  # the command and anything it started (a shell's children)
+        if running:
             try:
                 self._p.wait(timeout=5)
             except subprocess.TimeoutExpired:  # pragma: no cover
+                self._signal_group(signal.SIGKILL)
                 self._p.kill()
                 self._p.wait()
+
+    def _signal_group(self, sig: int) -> None:
+        try:
+            os.killpg(self._p.pid, sig)
+        except (ProcessLookupError, PermissionError, OSError):
+            pass
 
 
 COMMAND_EXIT_TIMEOUT_S = 5.0  # a command that closed its output gets this long to exit before it is ended
