@@ -123,9 +123,17 @@ def test_unwritable_folder_found_before_the_run(run_cli, data, tmp_path, monkeyp
     ro = tmp_path / "ro"
     ro.mkdir()
     ro.chmod(0o500)
-    if os.geteuid() == 0:  # root may write anywhere (CI runs as root): simulate the refusal of the folder
-        real = os.access
-        monkeypatch.setattr(os, "access", lambda p, m, *a, **k: False if os.fspath(p) == str(ro) else real(p, m))
+    if os.geteuid() == 0:  # root may write anywhere (CI runs as root): the folder refuses new files (as a
+        import tempfile  # read-only file system would), which the probe write finds
+
+        real = tempfile.mkstemp
+
+        def refuse(*a, dir=None, **k):
+            if dir is not None and os.fspath(dir) == str(ro):
+                raise PermissionError(13, "Permission denied")
+            return real(*a, dir=dir, **k)
+
+        monkeypatch.setattr(tempfile, "mkstemp", refuse)
     try:
         _refused(run_cli("test", data, "--json", ro / "r.json"), "not writable")
     finally:

@@ -182,3 +182,24 @@ def test_seed_sweep_stopped_by_sigterm_writes_an_incomplete_report(tmp_path):
     assert "Traceback" not in err
     d = json.loads(j.read_text())
     assert d["incomplete"] is True
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("delay", [0.4, 1.0])  # past interpreter start-up even on a loaded machine
+def test_a_signal_while_the_program_loads_ends_it_quietly(delay, tmp_path):
+    # early (while numpy, scipy and click load) or just after: either way exit 130 and no traceback
+    p = subprocess.Popen([sys.executable, "-m", "rngassay", "test", "--gen", "pcg64", "--budget", "64MiB", "--quiet"],
+                         stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    time.sleep(delay)
+    p.send_signal(signal.SIGINT)
+    rc, _out, err = _finish(p)
+    assert rc == 130, err
+    assert "Traceback" not in err
+
+
+def test_early_handler_exits_with_128_plus_the_signal():
+    from rngassay import _entry
+
+    with pytest.raises(SystemExit) as e:
+        _entry._early(signal.SIGTERM, None)
+    assert e.value.code == 143

@@ -3,6 +3,7 @@ piped input is read in segments like a file (issue 11, items 2, 5, 6, 7)."""
 
 from __future__ import annotations
 
+import os
 import hashlib
 import io
 import json
@@ -199,3 +200,25 @@ def test_ending_a_command_ends_what_it_started(tmp_path):
         except (OSError, ValueError):
             continue
     assert left == []
+
+
+def test_a_file_that_shrinks_mid_run_is_named_as_such(tmp_path, monkeypatch):
+    # a file larger than the read-ahead limit is read segment by segment; rewritten (truncated) after it was
+    # opened, the error says the file shrank -- not that the budget was too large
+    import rngassay.api as api_mod
+    from rngassay.errors import InputError
+
+    path = tmp_path / "big.bin"
+    size = api_mod.BUFFER_LIMIT + (8 << 20)
+    with open(path, "wb") as f:
+        f.truncate(size)  # sparse zeros: only the byte count matters here
+    real = api_mod.make_plan
+
+    def plan_then_shrink(*a, **k):
+        plan = real(*a, **k)
+        os.truncate(path, size // 2)
+        return plan
+
+    monkeypatch.setattr(api_mod, "make_plan", plan_then_shrink)
+    with pytest.raises(InputError, match="shrank while it was read"):
+        api_mod.assay(str(path), checks=["byte frequency"], budget=size)

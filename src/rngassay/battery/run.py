@@ -460,6 +460,13 @@ def _read_segment(stream: Stream, plan: Plan) -> np.ndarray:
     vals = stream.read_values(n)  # an empty source raises "empty stream" here
     if vals.size < n:  # a pipe or device planned for its --budget ended early
         unit, have = ("bytes", stream.bytes_read) if plan.fmt.is_binary else ("values", stream.values_read)
+        size = stream.source.size_hint()  # a file's size when it was opened
+        if plan.fmt.is_binary and size is not None and have < size:
+            raise InputError(
+                f"the file shrank while it was read: it held {size} bytes when opened, and ended after {have}",
+                stream.source.where,
+                "assay a file that is not being rewritten (copy it first)",
+            )
         raise InputError(
             f"stream is shorter than the plan needs (it ended after {have} {unit}; "
             f"the plan reads {plan.bytes_total()} {unit})",

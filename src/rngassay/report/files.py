@@ -109,9 +109,26 @@ def check_report_paths(outputs: list[tuple[str, str]], inputs: list[str]) -> Non
         parent = os.path.dirname(full) or "."
         if not os.path.isdir(parent):
             raise InputError(f"cannot write {what}: folder does not exist", name, "create the folder or choose another path")
-        if not os.access(parent, os.W_OK | os.X_OK):
+        if not os.access(parent, os.W_OK | os.X_OK) or not _can_create_in(parent):
             raise InputError(f"cannot write {what}: the folder is not writable", name,
                              "check its permissions or choose another path")
+
+
+def _can_create_in(folder: str) -> bool:
+    """Whether a file can really be made in ``folder`` (a read-only file system stops root too, which
+    ``os.access`` does not see): a probe file is made and removed at once."""
+    import tempfile
+
+    try:
+        fd, probe = tempfile.mkstemp(dir=folder, prefix=".rngassay-probe-")
+    except OSError:
+        return False
+    os.close(fd)
+    try:
+        os.unlink(probe)
+    except OSError:  # pragma: no cover
+        pass
+    return True
 
 
 def write_atomic(path: str | os.PathLike[str], data: str | bytes) -> None:
