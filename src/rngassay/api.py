@@ -156,6 +156,10 @@ def assay(
             grid_note = None
             if isinstance(stream, _MemoryStream) and f.kind in ("floats", "text-floats"):
                 f, grid_note = _value_grid(f, stream.source.vals)
+                wrapped = getattr(getattr(stream._inner, "decoder", None), "wrapped_ones", 0)
+                if wrapped:  # honest rounding of values just below 1 (see intake.formats)
+                    grid_note += (f"; {wrapped} value{'s' if wrapped != 1 else ''} printed as 1.0 (rounded from "
+                                  "just below 1) read as 0.0, the same point of the grid")
                 stream.fmt = f
         except KeyboardInterrupt as e:
             # a stop signal while the source was read ahead (e.g. standard input): nothing was checked,

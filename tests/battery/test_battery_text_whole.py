@@ -86,15 +86,15 @@ def test_explicit_text_budget_counts_values(dice, tmp_path):
 @pytest.mark.slow
 def test_honest_uniforms_printed_with_six_decimals_pass(tmp_path):
     # 2,000,000 numpy random() values printed with %.6f (a 10^-6 grid): the collision check used to fail them
-    # (p ~ 2e-8) by cutting [0, 1) into 2^20 cells that do not divide the grid. Fixed seed; a value that
-    # rounds to 1.000000 is left out (the text format takes floats in [0, 1)).
-    u = np.random.default_rng(2026).random(2_000_000)
-    u = np.round(u, 6)
-    u = u[u < 1.0]
+    # (p ~ 2e-8) by cutting [0, 1) into 2^20 cells that do not divide the grid. Fixed seed (7: one value
+    # rounds to "1.000000", which is read as the grid point 0).
+    u = np.random.default_rng(7).random(2_000_000)
     path = tmp_path / "u6.txt"
     np.savetxt(path, u, fmt="%.6f")
+    assert "1.000000" in path.read_text()
     rep = api.assay(str(path), fmt="text")
     assert rep.source["format"] == "text floats on a 10^-6 grid"
+    assert "1 value printed as 1.0" in rep.settings["value grid"]
     assert rep.verdict == "pass", [(c.id, c.p_value) for c in rep.checks if c.grade != "pass"]
 
 

@@ -24,3 +24,14 @@ def test_a_long_bad_token_is_shown_short(tmp_path, run_cli):
     p.write_text("0.5 " + "1" * 3000 + "\n")
     r = run_cli("test", str(p), "--format", "text")
     assert r.code == 2 and "(3000 bytes)" in r.err and len(r.err) < 400
+
+
+def test_a_uniform_rounded_up_to_one_is_read_as_the_grid_point_zero():
+    # printing u in [0.9999995, 1) with %.6f gives "1.000000": on the 10^-6 grid that is the point 10^6,
+    # i.e. 0 modulo 1 -- with it, the rounded values are exactly uniform on the grid again
+    d = Decoder(parse_format("text"), "t")
+    vals = d.feed(b"0.5\n1.000000\n0.25\n")
+    assert list(vals) == [0.5, 0.0, 0.25] and d.wrapped_ones == 1
+    for other in (b"0.5\n1\n0.1\n", b"0.5\n1.0e0\n0.1\n", b"0.5\n1.5\n0.1\n"):
+        with pytest.raises(InputError):
+            Decoder(parse_format("text"), "t").feed(other)

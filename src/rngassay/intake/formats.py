@@ -30,6 +30,10 @@ FORMATS = BINARY_FORMATS + ("text",)
 #: this many bytes is not text of numbers (e.g. /dev/zero), and is refused instead of buffered without end.
 MAX_TOKEN_BYTES = 4096
 
+#: "1." followed by 1 to 15 zeros: the printed rounding of a uniform float just below 1 (see _parse_text)
+_ROUNDED_ONE = re.compile(rb"1\.0{1,15}")
+
+
 def _shown(tok: bytes, limit: int = 40) -> str:
     """A token as an error line shows it: at most ``limit`` characters, the rest elided."""
     t = tok[:limit].decode("ascii", "replace")
@@ -154,6 +158,7 @@ class Decoder:
         self.offset = 0  # bytes fed so far
         self._carry = b""
         self._line = 1  # text: line number at the start of the carry
+        self.wrapped_ones = 0  # text floats printed as 1.000...0 (rounded from just below 1), read as 0.0
         self.values = 0  # values produced so far
 
     # -- binary ---------------------------------------------------------------------------------
@@ -230,6 +235,18 @@ class Decoder:
                 )
         else:
             ok = (vals >= 0) & (vals < 1)
+            ones = vals == 1.0
+            if ones.any():
+                # "1.000000": a uniform just below 1 rounded to d printed decimals (1 <= d <= 15). On the
+                # printed grid it is the point 10^d, which is 0 modulo 1: read as 0.0, so that the grid is
+                # exactly uniform again (k = 0 and k = 10^d each hold half a cell). Any other form of 1
+                # ("1", "1.0e0", "0.99999999999999999999") is still refused below.
+                rounded = np.array([_ROUNDED_ONE.fullmatch(tokens[int(i)]) is not None
+                                    for i in np.flatnonzero(ones)])
+                if rounded.all():
+                    vals = np.where(ones, 0.0, vals)
+                    self.wrapped_ones += int(ones.sum())
+                    ok = ok | ones
             if not ok.all():
                 i = int(np.argmin(ok))
                 v = vals[i]

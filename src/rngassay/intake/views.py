@@ -91,7 +91,7 @@ def float_bits(fmt: Format) -> int:
     if fmt.kind == "text-floats" and fmt.decimals is not None:
         return fmt.decimals
     c = uniform_resolution_bits(fmt)
-    return min(c, fmt.grid_bits) if fmt.grid_bits is not None else c
+    return max(1, min(c, fmt.grid_bits)) if fmt.grid_bits is not None else c  # all zeros: still 1 bit, no crash
 
 
 def available_windows(fmt: Format, view: str) -> tuple[str, ...]:
@@ -218,8 +218,8 @@ def as_window(vals: np.ndarray, fmt: Format, view: str, window: str):
             return w
     if window == "fraction-tail" and view == "words32" and fmt.kind == "floats":
         m, r = _float_fields(vals, fmt)
-        if r <= 32:
-            raise ValueError(f"no fraction-tail window for floats carrying {r} bits")
+        if r <= 32:  # values found to carry no bits below the top 32 (a coarse grid, judged by the grid check)
+            return np.empty(0, dtype=np.uint32), 0
         return (m & np.uint64((1 << (r - 32)) - 1)).astype(np.uint32), r - 32
     raise ValueError(f"no {window!r} window of the {view} view for {fmt.describe()}")
 

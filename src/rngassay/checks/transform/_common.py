@@ -67,12 +67,19 @@ def on_grid(u: np.ndarray, bits: int) -> bool:
 
 
 def resolve_bits(u: np.ndarray, bits: int | None) -> tuple[int, bool]:
-    """(claimed resolution in bits, whether it was inferred from the data)."""
+    """(resolution in bits, whether it was inferred from the data).
+
+    A given resolution is lowered to the grid the values are found on (every value a multiple of 2^-b):
+    a coarser grid than claimed is the fraction grid check's finding, so no other check fails it again (a
+    sound 23-bit float32 stream judged at 24 bits would show no values above 1 - 2^-24, and twice the
+    exact zeros). A sound stream loses a bit by chance with probability 2^-n."""
     if bits is not None:
         b = int(bits)
         if not 1 <= b <= FULL_BITS:
             raise InputError(f"resolution_bits must be in 1..{FULL_BITS}, got {bits}")
-        return b, False
+        from rngassay.intake.views import fraction_grid_bits
+
+        return min(b, max(1, fraction_grid_bits(np.asarray(u, dtype=np.float64), b))), False
     if u.size == 0:
         return FULL_BITS, True
     for b in BITS_LADDER:
