@@ -554,3 +554,28 @@ def test_pooled_p_values_are_not_anti_conservative():
             if tail < 1e-6:
                 bad.append((key, level, k))
     assert not bad, bad
+
+
+def test_replicates_with_different_tables_are_not_pooled():
+    # review finding: a fallback table of the same size but other cell probabilities must not be summed in
+    from rngassay.battery.grade import pool_sufficient
+    from rngassay.checks.registry import load_all
+    from rngassay.checks.result import CheckResult
+
+    spec = load_all()["gap"]
+    a = CheckResult("gap", 1.0, 0.5, "x", pooled={"counts": np.array([10, 10, 10]), "probs": np.array([.5, .25, .25])})
+    b = CheckResult("gap", 1.0, 0.5, "x", pooled={"counts": np.array([10, 10, 10]), "probs": np.array([1 / 3] * 3)})
+    assert pool_sufficient(spec, [a, b]) is None
+    assert pool_sufficient(spec, [a, a]) is not None
+
+
+def test_collision_replicates_pool_to_the_exact_law_of_all_samples():
+    # the pooled total of four replicates equals one check on all their data (same samples, same law)
+    from rngassay.checks.classic.collision import check_collision, pool_collisions
+
+    u = np.random.Generator(np.random.PCG64(9)).random(4 * 2 * 16384 * 2)  # 4 parts of 2 samples (t = 2)
+    whole = check_collision(u, d=1024, t=2, balls=16384)
+    parts = [check_collision(q, d=1024, t=2, balls=16384) for q in np.split(u, 4)]
+    pooled = pool_collisions([r.pooled for r in parts])
+    assert pooled.statistic == whole.statistic
+    assert pooled.p_value == pytest.approx(whole.p_value, rel=1e-12)

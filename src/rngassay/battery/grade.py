@@ -153,6 +153,8 @@ def pool_sufficient(spec: Any, firsts: list[CheckResult]) -> dict[str, Any] | No
     """
     both = spec.both_tails
     d0 = firsts[0].pooled or {}
+    if not _compatible([f.pooled or {} for f in firsts]):
+        return None  # replicates tested different tables (e.g. a fallback form): no pooling
     custom = getattr(spec, "pool", None)
     if custom is not None:
         try:
@@ -175,6 +177,26 @@ def pool_sufficient(spec: Any, firsts: list[CheckResult]) -> dict[str, Any] | No
         return {"law": f"normal: sum of {len(firsts)} z / sqrt({len(firsts)})", "statistic": z,
                 "p_right": float(right), "p_left": float(left), "p_value": float(p)}
     return _pool(firsts, both)
+
+
+def _compatible(pooled: list[dict]) -> bool:
+    """Whether the replicates' pooled quantities describe the same table: same keys, same cell
+    probabilities, binomial p and degrees of freedom, same number of cells."""
+    keys = set(pooled[0])
+    for d in pooled[1:]:
+        if set(d) != keys:
+            return False
+        for k in ("probs", "p", "df", "k", "v", "d", "claimed"):
+            if k in keys:
+                a, b = d[k], pooled[0][k]
+                if a is None or b is None:
+                    if (a is None) != (b is None):
+                        return False
+                elif not np.array_equal(np.asarray(a, dtype=float), np.asarray(b, dtype=float)):
+                    return False
+        if "counts" in keys and np.shape(d["counts"]) != np.shape(pooled[0]["counts"]):
+            return False
+    return True
 
 
 def _pool(firsts: list[CheckResult], both: bool) -> dict[str, Any] | None:

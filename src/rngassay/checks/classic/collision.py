@@ -341,6 +341,19 @@ def check_collision(data: np.ndarray, d: int = DEFAULT_URNS, t: int = 1, balls: 
     )
 
 
+def pool_collisions(pooled: list[dict]) -> CheckResult:
+    """All replicates at once: the total of their collision counts against the exact law of the total of
+    all their samples (the law depends only on the number of samples, balls and urns)."""
+    p0 = pooled[0]
+    balls, urns = int(p0["balls"]), int(p0["urns"])
+    total = sum(int(p["observed"]) for p in pooled)
+    samples = sum(int(p["samples"]) for p in pooled)
+    right, left = collision_sum_tails(total, samples, balls, urns)
+    return CheckResult(name="collision", statistic=float(total), p_value=right, p_left=left,
+                       null=f"exact law of collisions: {samples} x ({balls} balls in {urns} urns)", kind="discrete",
+                       n=samples * balls)
+
+
 #: Default variants (d, t), all with m = d^t = 2^20 urns and 2^14 balls (Knuth's example sizes):
 #: one coordinate (top 20 bits), pairs, 4-tuples, and Knuth's 20-dimensional binary version.
 COLLISION_VARIANTS = ((1 << 20, 1), (1 << 10, 2), (1 << 5, 4), (2, 20))
@@ -359,7 +372,7 @@ def _defaults(n: int) -> list[dict]:
 register(CheckSpec(
     key="collision", family="classic", windows=("reversed",), title="collision test (Knuth 3.3.2 I)", view="uniforms",
     kind="discrete", func=check_collision, values_needed=lambda p: int(p["n"]),
-    default_params=_defaults, both_tails=True, source=KNUTH_COLLISION,
+    default_params=_defaults, both_tails=True, source=KNUTH_COLLISION, pool=pool_collisions,
     notes="2^14 balls in 2^20 urns per set; variants t = 1, 2, 4, 20; exact law of the total; "
-          "pooled: observed, mu, var, samples (exact pooling via collision_sum_tails)",
+          "pooled: the total over all replicates against the exact law of all their samples",
 ))
