@@ -130,6 +130,26 @@ def signal_guard(ignore_after_stop: bool = False):
             _Guard.saved = {}
 
 
+def stop_pool(pool: Any, grace: float = 0.5) -> None:
+    """Stop a process pool without waiting for its tasks: queued ones are cancelled, running workers get
+    ``grace`` seconds, then SIGTERM, then SIGKILL. Never hangs; a pool that is not a process pool is left."""
+    if pool is None or not isinstance(pool, cf.ProcessPoolExecutor):
+        return
+    procs = list((getattr(pool, "_processes", None) or {}).values())
+    pool.shutdown(wait=False, cancel_futures=True)
+    deadline = time.monotonic() + grace
+    for p in procs:
+        p.join(max(0.0, deadline - time.monotonic()))
+    for p in procs:
+        if p.is_alive():
+            p.terminate()
+    for p in procs:
+        p.join(1.0)
+        if p.is_alive():  # pragma: no cover
+            p.kill()
+            p.join(1.0)
+
+
 def _worker_init() -> None:
     """Worker processes leave stop signals to the main process (no tracebacks from workers on Ctrl-C); a
     SIGTERM from the main process still ends them."""
@@ -289,22 +309,7 @@ class Executor:
         """Stop the pool without waiting for its tasks: queued ones are cancelled, running workers get
         ``grace`` seconds, then SIGTERM, then SIGKILL. Never hangs."""
         self.aborted = True
-        pool = self._pool
-        if pool is None or not isinstance(pool, cf.ProcessPoolExecutor):
-            return
-        procs = list((getattr(pool, "_processes", None) or {}).values())
-        pool.shutdown(wait=False, cancel_futures=True)
-        deadline = time.monotonic() + grace
-        for p in procs:
-            p.join(max(0.0, deadline - time.monotonic()))
-        for p in procs:
-            if p.is_alive():
-                p.terminate()
-        for p in procs:
-            p.join(1.0)
-            if p.is_alive():  # pragma: no cover
-                p.kill()
-                p.join(1.0)
+        stop_pool(self._pool, grace)
 
     def submit_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck], segment: int = 0) -> Any:
         """Start checks on one segment (spread over the workers in fixed slices); see :meth:`collect`."""

@@ -11,7 +11,7 @@ import os
 from dataclasses import dataclass
 from typing import Any, Callable
 
-from ..battery.run import Executor
+from ..battery.run import Executor, _worker_init
 from ..errors import InputError
 from .factory import SeedFactory
 
@@ -19,6 +19,7 @@ _FACTORY: SeedFactory | None = None  # the factory of this worker process (local
 
 
 def _install(factory: SeedFactory) -> None:
+    _worker_init()  # stop signals are the main process's; a SIGTERM from it still ends this worker
     global _FACTORY
     _FACTORY = factory
 
@@ -102,7 +103,12 @@ class SweepRunner:
 
     def __exit__(self, *exc: Any) -> None:
         if self._pool is not None:
-            self._pool.shutdown(wait=exc[0] is None, cancel_futures=True)
+            from ..battery.run import received_signal, stop_pool
+
+            if exc[0] is None and received_signal() is None:
+                self._pool.shutdown(wait=True, cancel_futures=True)
+            else:  # stopped (a signal, an error): workers are ended, never left running
+                stop_pool(self._pool)
             self._pool = None
         if self._dask is not None:
             self._dask.__exit__(*exc)
