@@ -418,22 +418,10 @@ def run_plan(
                     # the source died: the checks whose data was read in full still run on it
                     if batch:
                         part = active[: len(batch)]
-                        results = _run_fresh(executor, batch, plan.fmt, [o.check for o in part], j)
-                        for o, (res, err, sec) in zip(part, results):
-                            o.bytes += o.check.bytes
-                            o.seconds += sec
-                            o.results[j] = res
-                            if err:
-                                o.errors.append(f"replicate {j + 1}: {err}")
+                        _keep(part, _run_fresh(executor, batch, plan.fmt, [o.check for o in part], j), j)
                     raise
                 # fresh data per check: run each on its own data, spread over the workers
-                results = _run_fresh(executor, batch, plan.fmt, [o.check for o in active], j)
-                for o, (res, err, sec) in zip(active, results):
-                    o.bytes += o.check.bytes
-                    o.seconds += sec
-                    o.results[j] = res
-                    if err:
-                        o.errors.append(f"replicate {j + 1}: {err}")
+                _keep(active, _run_fresh(executor, batch, plan.fmt, [o.check for o in active], j), j)
     except KeyboardInterrupt as e:
         signum = getattr(e, "signum", None) or received_signal()
         reason = "interrupted" + (f" by {signal_name(signum)}" if signum else "")
@@ -451,6 +439,16 @@ def run_plan(
     finally:
         _Guard.deferred = prev_deferred
     return outcomes, reason is None, reason
+
+
+def _keep(outcomes: list[Outcome], results: list, j: int) -> None:
+    """Record replicate ``j`` of checks that ran on fresh data of their own."""
+    for o, (res, err, sec) in zip(outcomes, results):
+        o.bytes += o.check.bytes
+        o.seconds += sec
+        o.results[j] = res
+        if err:
+            o.errors.append(f"replicate {j + 1}: {err}")
 
 
 def _run_fresh(executor: Executor, batch: list[np.ndarray], fmt: Format, checks: list[PlannedCheck], segment: int = 0):
