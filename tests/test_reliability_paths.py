@@ -17,7 +17,7 @@ import pytest
 from rngassay.cli import finish
 from rngassay.errors import InputError
 from rngassay.report.files import check_report_paths, safe_name, write_atomic
-from rngassay.report.model import Report
+from rngassay.model import Report
 
 GEN_MODULE = """import numpy as np
 def make(seed=None):

@@ -141,7 +141,7 @@ def test_nothing_finished_is_no_verdict_never_pass():
     rep = stopped_report(s, plan, "interrupted by SIGINT while reading the source")
     assert rep.verdict == "no verdict" and rep.incomplete and rep.exit_code() == 2
     assert "completed 0 of" in rep.incomplete_reason()
-    assert "no verdict" in rep.to_text()
+    assert "no verdict" in api.render_text(rep)
     root = ET.fromstring(render_junit(rep))
     assert root.get("tests") != "0" and int(root.get("errors")) == 1
     assert root.find(".//testcase/error") is not None

@@ -5,12 +5,12 @@
 
 __version__ = "0.1.0"
 
-__all__ = ["assay", "__version__"]
+__all__ = ["assay", "fit", "sweep_seeds", "render_text", "__version__"]
 
 
 def __getattr__(name):  # keep `import rngassay` light; load the API on first use
-    if name == "assay":
-        from .api import assay
+    if name in ("assay", "fit", "sweep_seeds", "render_text"):
+        from . import api
 
-        return assay
+        return getattr(api, name)
     raise AttributeError(name)

@@ -20,7 +20,7 @@ from .battery.battery import run_battery, stopped_report
 from .battery.run import armed, signal_guard, signal_name
 from .battery.grade import DEFAULT_ALPHA
 from .battery.plan import Plan, make_plan
-from .report.model import Report
+from .model import Report
 from .fitting import fit  # noqa: F401  (re-exported: rngassay.api.fit)
 
 DEFAULT_BUDGET = 64 << 20
@@ -78,7 +78,7 @@ def assay(
     plan_only: bool = False,
     cluster: str | None = None,
 ) -> Report | Plan:
-    """Assay a stream and return its :class:`~rngassay.report.model.Report`.
+    """Assay a stream and return its :class:`~rngassay.model.Report`.
 
     ``source`` is a file path, ``"-"`` for standard input, or a :class:`RawSource`; or give one of
     ``command``, ``python``, ``gen`` (with ``seed``). ``budget`` is the number of bytes to assay
@@ -200,6 +200,13 @@ def _value_grid(f, vals: np.ndarray):
     line = (f"every value a multiple of 2^-{r} ({r} fraction bits; the format holds {claimed})"
             + ("; word and bit views take only these bits" if r < claimed else ""))
     return dataclasses.replace(f, grid_bits=r), line
+
+
+def render_text(report: Report, color: bool = False) -> str:
+    """The report as the terminal table the command line prints (worst checks first, verdict, cautions)."""
+    from .report.terminal import render
+
+    return render(report, color=color)
 
 
 def sweep_seeds(*args, **kwargs):

@@ -226,7 +226,7 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
         if partial is not None:  # bad data mid-run: file what finished, marked incomplete, then the error
             progress.done()
             _write_outputs(partial, outputs)
-            out(partial.to_text(color=sys.stdout.isatty()))
+            out(_text(partial))
         raise
     finally:
         progress.done()
@@ -243,9 +243,9 @@ def finish(report, outputs: list[tuple[str, str]], strict: bool) -> None:
     try:
         _write_outputs(report, outputs)
     except InputError:
-        out(report.to_text(color=sys.stdout.isatty()))
+        out(_text(report))
         raise
-    out(report.to_text(color=sys.stdout.isatty()))
+    out(_text(report))
     for what, path in outputs:
         out(f"{what:<12} {path}")
     code = report.exit_code(strict=strict)
@@ -255,6 +255,12 @@ def finish(report, outputs: list[tuple[str, str]], strict: bool) -> None:
     elif report.incomplete:
         code = 130 if any("interrupted" in n for n in report.notes) else max(code, EXIT_FAIL)
     raise click.exceptions.Exit(code)
+
+
+def _text(report) -> str:
+    from .report.terminal import render
+
+    return render(report, color=sys.stdout.isatty())
 
 
 def _stop_signal() -> int | None:
@@ -440,7 +446,7 @@ def demo(budget: str, out_dir: str, workers: int | None, quiet: bool) -> None:
         outs = [("json report", base + ".json"), ("html report", base + ".html"), ("junit report", base + ".xml")]
         _write_outputs(report, outs)
         out(f"== {title}  (stand-in: --gen {name} --seed {seed})")
-        out(report.to_text(color=sys.stdout.isatty()))
+        out(_text(report))
         out("")
         written += [p for _, p in outs]
     out("Reports written:")

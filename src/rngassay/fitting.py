@@ -71,7 +71,7 @@ from .intake.views import decimal_grid  # noqa: F401  (also re-exported for call
 
 #: bytes that never belong to a number token (in numeric mode): '_' and anything outside printable ASCII
 _NOT_A_NUMBER_BYTE = re.compile(rb"[_\x80-\xff]")
-from .report.model import CAUTIONS, NO_VERDICT, CheckReport, Report, Round
+from .model import CAUTIONS, NO_VERDICT, CheckReport, Report, Round
 
 #: Default seed of the randomised PIT (discrete declarations).
 DEFAULT_PIT_SEED = 20240917
@@ -892,7 +892,7 @@ def fit(
     (or give ``command``).  Exactly one of ``dist`` (a scipy.stats spec) and ``odds`` (a CSV/TOML
     odds file) is required.  ``checks``/``skip`` select by key, family ("fit", or the battery's
     families), identifier, ``pit`` (the whole PIT battery) or ``pit: X``.  ``battery=False`` runs
-    the fit-specific checks only.  Returns a :class:`~rngassay.report.model.Report` (command "fit").
+    the fit-specific checks only.  Returns a :class:`~rngassay.model.Report` (command "fit").
     """
     t0 = time.perf_counter()
     if (dist is None) == (odds is None):

@@ -7,7 +7,7 @@ import json
 import pytest
 
 from rngassay.report.diff import diff_reports, render_diff_text
-from rngassay.report.model import CheckReport, Report, Round
+from rngassay.model import CheckReport, Report, Round
 
 
 def _check(cid, p, grade):

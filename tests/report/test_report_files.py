@@ -10,7 +10,7 @@ import pytest
 from rngassay.errors import InputError
 from rngassay.report import files
 from rngassay.report.files import read_report_json, write_atomic
-from rngassay.report.model import SCHEMA, CheckReport, Report, Round
+from rngassay.model import SCHEMA, CheckReport, Report, Round
 
 
 def _report() -> Report:

@@ -13,7 +13,7 @@ import pytest
 
 from rngassay.report import figures
 from rngassay.report.html import format_p, render_html
-from rngassay.report.model import CAUTIONS, CheckReport, Report, Round
+from rngassay.model import CAUTIONS, CheckReport, Report, Round
 
 EVIL = "<script>alert(1)</script>"
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"

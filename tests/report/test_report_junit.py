@@ -7,7 +7,7 @@ import xml.etree.ElementTree as ET
 import pytest
 
 from rngassay.report.junit import render_junit
-from rngassay.report.model import CheckReport, Report, Round
+from rngassay.model import CheckReport, Report, Round
 
 
 def _check(cid, p, grade, adjusted=None, rounds=1, error=None):

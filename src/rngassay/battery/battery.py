@@ -8,7 +8,7 @@ from typing import Any, Callable
 from ..checks.registry import load_all
 from ..errors import InputError
 from ..intake.stream import Stream
-from ..report.model import NO_VERDICT, CheckReport, Report, Round
+from ..model import NO_VERDICT, CheckReport, Report, Round
 from . import grade as G
 from .plan import Plan
 from .run import (Executor, Outcome, defer_signals, received_signal, run_plan, signal_guard, signal_name,

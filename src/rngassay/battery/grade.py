@@ -55,6 +55,7 @@ import numpy as np
 from .. import stats
 from ..checks.registry import load_all
 from ..checks.result import CheckResult
+from ..model import NO_VERDICT, Report
 from .run import Outcome
 
 DEFAULT_ALPHA = 1e-3
@@ -264,3 +265,16 @@ def run_verdict(grades: list[str]) -> str:
     if "borderline" in grades:
         return "borderline"
     return "pass"
+
+
+def graded_report(command: str, rows: list, *, alpha: float, **fields) -> Report:
+    """The one way from check rows to a graded report: Holm over every row that ran (a row with an error
+    keeps its "fail"), the run's verdict ("no verdict" when no row finished) and the combined p-value.
+    ``fields``: the rest of :class:`~rngassay.model.Report` (source, budget_bytes, plan, settings, notes, ...)."""
+    graded = [c for c in rows if c.error is None]
+    grades, adj = holm_grades([c.p_value for c in graded], alpha)
+    for c, g, a in zip(graded, grades, adj):
+        c.grade, c.adjusted_p = g, a
+    verdict = run_verdict([c.grade for c in rows]) if rows else NO_VERDICT
+    return Report(command=command, alpha=alpha, verdict=verdict,
+                  combined_p=combined_p([c.p_value for c in graded]), checks=rows, **fields)

@@ -38,7 +38,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from .html import format_p
-from .model import Report
+from ..model import Report
 
 MARKED = 3.0  # change in -log10 p that counts as marked
 WORSE_P = 1e-3  # ... and the new raw p-value must be below this for "worse" (fallback rule)

@@ -1,6 +1,6 @@
 """Figures for the HTML report, drawn with matplotlib's Agg canvas and returned as PNG bytes.
 
-Every function takes a :class:`~rngassay.report.model.Report` and copes with zero checks, one check, checks
+Every function takes a :class:`~rngassay.model.Report` and copes with zero checks, one check, checks
 without replicate p-values, and p-values down to (and below) 1e-300: p-values are clipped to
 ``[P_FLOOR, 1]`` before taking logarithms, and non-finite ones are left out and counted in the title.
 No pyplot state is used (figures are built on ``matplotlib.figure.Figure`` with an Agg canvas), so nothing
@@ -19,7 +19,7 @@ from matplotlib.colors import Normalize
 from matplotlib.figure import Figure
 from matplotlib.ticker import FixedFormatter, FixedLocator, MaxNLocator, NullLocator
 
-from .model import CheckReport, Report
+from ..model import CheckReport, Report
 
 P_FLOOR = 1e-300  # smallest p-value drawn; anything smaller (or 0 from underflow) is drawn as this
 HEAT_CAP = 10.0  # colour scale of the heat map stops at -log10 p = 10

@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
-from .model import GRADES, SCHEMA
+from ..model import GRADES, SCHEMA
 
 SCHEMA_PREFIX = "rngassay-report/"
 

@@ -14,7 +14,7 @@ import math
 from typing import Any
 
 from ..sizes import format_size
-from .model import GRADES, CheckReport, Report
+from ..model import GRADES, CheckReport, Report
 
 P_TINY = 1e-300
 

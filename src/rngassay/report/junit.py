@@ -25,7 +25,7 @@ import xml.etree.ElementTree as ET
 from typing import Any
 
 from .html import format_p, format_params
-from .model import CheckReport, Report
+from ..model import CheckReport, Report
 
 _NOT_XML = re.compile("[^\u0009\u000a\u000d\u0020-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]")
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from .model import Report
+from ..model import Report
 
 _COLORS = {"fail": "\033[31;1m", "borderline": "\033[33;1m", "pass": "\033[32m"}
 _RESET = "\033[0m"

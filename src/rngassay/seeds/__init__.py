@@ -1,6 +1,6 @@
 """Seed sweeps: many seeds of one generator, and checks of how their streams relate.
 
-``sweep_seeds(seeds="0..999", python="gen.py:make")`` returns a :class:`~rngassay.report.model.Report`
+``sweep_seeds(seeds="0..999", python="gen.py:make")`` returns a :class:`~rngassay.model.Report`
 (command ``seeds``); ``rngassay seeds`` is the command line over it. See :mod:`rngassay.seeds.sweep`.
 Names are imported on first use, so that ``rngassay --help`` stays quick.
 """

@@ -107,9 +107,11 @@ def register_cli(group: click.Group) -> click.Command:
           duplicates and overlaps   identical or shifted streams across seeds
           early bytes         each early output byte's distribution across seeds
         """
+        from ..battery.run import defer_signals
         from ..errors import InputError
         from .sweep import sweep_seeds
 
+        defer_signals()  # a stop signal while starting up is kept for the run, which then ends in a report
         check_workers(workers, cluster)
         bytes_per_seed = _bounded_sizes(bytes_per_seed, lags)
         if avalanche_seeds is not None and avalanche_seeds < 0:

@@ -45,14 +45,15 @@ import numpy as np
 
 from ..battery import grade as G
 from ..battery.plan import PlannedCheck, make_plan
-from ..battery.run import Outcome, ViewCache, call_check, run_plan
+from ..battery.run import (Outcome, ViewCache, armed, call_check, defer_signals, received_signal, run_plan,
+                          signals_deferred)
 from ..checks.result import CheckResult
 from ..checks.registry import load_all
 from ..errors import InputError
 from ..intake.formats import parse_format
 from ..intake.sources import RawSource
 from ..intake.stream import Stream
-from ..report.model import CheckReport, Report, Round
+from ..model import CheckReport, Report, Round
 from ..sizes import format_size
 from . import kernels as K
 from . import measures as M
@@ -283,32 +284,61 @@ def per_seed_plan(B: int, selectors: list[str] | None) -> tuple[list[PlannedChec
     return out, notes
 
 
-def run_sweep(
-    seeds: np.ndarray,
-    factory: SeedFactory,
-    *,
-    options: SweepOptions | None = None,
-    alpha: float = G.DEFAULT_ALPHA,
-    workers: int | None = 1,
-    cluster: str | None = None,
-    client: Any = None,
-    progress: Callable[[str], None] | None = None,
-    seed_spec: str = "",
-) -> Report:
-    """Run the seed sweep and return its :class:`~rngassay.report.model.Report` (command ``seeds``).
+@dataclass
+class SweepPlan:
+    """What a sweep will run, decided before any stream is made (validated options, selected rows)."""
 
-    ``seeds``: integers (order kept, no repeats); ``factory``: a :class:`SeedFactory`. ``workers`` local
-    processes, or a Dask cluster by ``cluster`` address or an existing ``client``; the report is the
-    same either way. A task lost for good (a dead worker after Dask's retries, a broken local pool) or
-    Ctrl-C ends the run early: the report covers what finished and is marked incomplete.
-    """
-    t0 = time.perf_counter()
-    o = options or SweepOptions()
+    seeds: np.ndarray
+    o: SweepOptions
+    S: int
+    B: int
+    P: int  # early-byte positions (0: the row is not run)
+    ks: tuple[int, ...]
+    per_seed: list[PlannedCheck]
+    run_x: bool
+    run_ov: bool
+    run_early: bool
+    groups: dict[int, int]
+    xor_groups: int
+    n_av: int
+    edges: tuple | None  # (a, b, bit, dropped, number of base seeds) for the avalanche, or None
+    spacing: int
+    cfg: _Cfg
+    notes: list[str]
+
+    @property
+    def nblocks(self) -> int:
+        return -(-self.S // self.o.block)
+
+
+@dataclass
+class SweepTasks:
+    """What the sweep's tasks returned: complete, or partial with what finished (never an exception)."""
+
+    blocks: list[_Block | None]
+    av_parts: list[tuple[int, np.ndarray]]  # (first edge index, distances)
+    av_tasks: int
+    lost: list[str]
+    interrupted: bool
+    sub_results: dict[str, Any]
+    executor_name: str
+    workers_used: int | None
+
+    @property
+    def finished(self) -> list[_Block]:
+        return [bl for bl in self.blocks if bl is not None]
+
+    @property
+    def incomplete_reason(self) -> str | None:
+        if self.interrupted:
+            return "interrupted"
+        return f"a worker was lost ({self.lost[0]})" if self.lost else None
+
+
+def _validate(seeds: np.ndarray, o: SweepOptions, alpha: float) -> None:
     if not (0 < alpha < 1):
         raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
-    seeds = np.asarray(seeds, dtype=np.uint64).ravel()
-    S = int(seeds.size)
-    if S == 0:
+    if seeds.size == 0:
         raise InputError("empty seed set", "--seeds", "give at least one seed, e.g. --seeds 0..999")
     B = int(o.bytes_per_seed)
     if B < 64 or B % 8:
@@ -324,10 +354,18 @@ def run_sweep(
         raise InputError("--lags and --early-bytes must be >= 0 and --merge-budget positive", "", "")
     if o.block < 4 or o.block % 4:
         raise InputError(f"block size must be a positive multiple of 4, got {o.block}", "", "e.g. 32")
+    if any(int(k) < 2 or 4 % int(k) for k in o.interleave):
+        raise InputError(f"interleave widths must be 2 or 4, got {sorted(set(o.interleave))}", "--interleave",
+                         "e.g. 2,4")
+
+
+def plan_sweep(seeds: np.ndarray, factory: SeedFactory, o: SweepOptions, alpha: float) -> SweepPlan:
+    """Validate the options and decide the rows (the per-seed part reuses the battery's plan rules)."""
+    seeds = np.asarray(seeds, dtype=np.uint64).ravel()
+    _validate(seeds, o, alpha)
+    S, B = int(seeds.size), int(o.bytes_per_seed)
     P = min(o.early_bytes, B)
     ks = tuple(sorted(set(int(k) for k in o.interleave)))
-    if any(k < 2 or 4 % k for k in ks):
-        raise InputError(f"interleave widths must be 2 or 4, got {list(ks)}", "--interleave", "e.g. 2,4")
     sel = lambda key, rid: _row_selected(key, rid, o.checks, o.skip)  # noqa: E731
     notes: list[str] = []
 
@@ -351,128 +389,165 @@ def run_sweep(
     spacing = _spacing(B)
     cfg = _Cfg(B, per_seed, P if run_early else 0, o.lags if run_x else -1, spacing, 4 * (B // spacing) + 16,
                run_ov, groups, xor_groups)
-    anything = per_seed or run_x or run_ov or run_early or groups or xor_groups or run_av
-    if not anything:
+    if not (per_seed or run_x or run_ov or run_early or groups or xor_groups or run_av):
         raise InputError("no seed check selected", "--checks/--skip",
                          f"choose among {', '.join(ROW_KEYS)} (or full identifiers)")
-
-    # the factory must work before any pool starts: one clear error line otherwise
-    factory.stream(int(seeds[0]), min(B, 64))
-
     edges = None
     if run_av:
         bases = seeds[: min(n_av, S)]
         a, b, bit, dropped = M.avalanche_edges(bases, o.seed_bits)
         edges = (a, b, bit, dropped, len(bases))
+    return SweepPlan(seeds, o, S, B, P, ks, per_seed, run_x, run_ov, run_early, groups, xor_groups, int(n_av), edges,
+                     spacing, cfg, notes)
 
-    nblocks = -(-S // o.block)
-    blocks: list[_Block | None] = [None] * nblocks
-    av_parts: list[tuple[int, np.ndarray]] = []  # (first edge index, distances)
-    lost: list[str] = []
-    interrupted = False
+
+def run_sweep(
+    seeds: np.ndarray,
+    factory: SeedFactory,
+    *,
+    options: SweepOptions | None = None,
+    alpha: float = G.DEFAULT_ALPHA,
+    workers: int | None = 1,
+    cluster: str | None = None,
+    client: Any = None,
+    progress: Callable[[str], None] | None = None,
+    seed_spec: str = "",
+) -> Report:
+    """Run the seed sweep and return its :class:`~rngassay.model.Report` (command ``seeds``).
+
+    ``seeds``: integers (order kept, no repeats); ``factory``: a :class:`SeedFactory`. ``workers`` local
+    processes, or a Dask cluster by ``cluster`` address or an existing ``client``; the report is the
+    same either way. A task lost for good (a dead worker after Dask's retries, a broken local pool) or
+    a stop signal ends the run early: the report covers what finished and is marked incomplete.
+    """
+    t0 = time.perf_counter()
+    sp = plan_sweep(seeds, factory, options or SweepOptions(), alpha)
+    # the factory must work before any pool starts: one clear error line otherwise
+    factory.stream(int(sp.seeds[0]), min(sp.B, 64))
+    tasks = run_tasks(sp, factory, workers, cluster, client, progress)
+    return sweep_report(sp, tasks, factory, alpha, seed_spec, time.perf_counter() - t0)
+
+
+def run_tasks(sp: SweepPlan, factory: SeedFactory, workers: int | None, cluster: str | None, client: Any,
+              progress: Callable[[str], None] | None) -> SweepTasks:
+    """Run the block and avalanche tasks, then the batteries on merged streams; keep what finished.
+
+    Starting the pool and handing it the tasks is not interruptible (a signal inside a fork or a submit
+    can leave a half-started pool that hangs the exit): a stop signal there is only recorded, and the
+    run stops when it starts waiting for results (:func:`armed`); what finished is kept.
+    """
+    prev_deferred = signals_deferred()
+    defer_signals(True)
+    try:
+        return _run_tasks(sp, factory, workers, cluster, client, progress)
+    finally:
+        defer_signals(prev_deferred)
+
+
+def _run_tasks(sp: SweepPlan, factory: SeedFactory, workers: int | None, cluster: str | None, client: Any,
+               progress: Callable[[str], None] | None) -> SweepTasks:
+    o, S, seeds = sp.o, sp.S, sp.seeds
+    nblocks = sp.nblocks
+    out = SweepTasks([None] * nblocks, [], 0, [], False, {}, "", None)
     failure: TaskFailure | None = None
-    sub_results: dict[str, Any] = {}
 
     def collect(f: Any) -> Any:
         try:
             return f.result()
         except cf.process.BrokenProcessPool as e:  # a lost worker: the task's seeds are missing
-            lost.append(str(e))
+            out.lost.append(str(e))
             return None
 
     with SweepRunner(factory, workers, cluster, client) as runner:
-        futs = []
-        for i in range(nblocks):
-            lo, hi = i * o.block, min(S, (i + 1) * o.block)
-            halo = int(seeds[hi]) if (run_x and hi < S) else None
-            futs.append(runner.submit(_block_task, seeds[lo:hi], lo, halo, cfg))
-        av_futs = []
-        if edges is not None:
-            a, b = edges[0], edges[1]
-            step = 16 * o.seed_bits  # about 16 base seeds per task
-            for j in range(0, a.size, step):
-                av_futs.append((j, runner.submit(_avalanche_task, a[j : j + step], b[j : j + step], AVALANCHE_BYTES)))
+        futs, av_futs = [], []
+        if received_signal() is None:  # stopped while starting up: no task is started
+            for i in range(nblocks):
+                lo, hi = i * o.block, min(S, (i + 1) * o.block)
+                halo = int(seeds[hi]) if (sp.run_x and hi < S) else None
+                futs.append(runner.submit(_block_task, seeds[lo:hi], lo, halo, sp.cfg))
+            if sp.edges is not None:
+                a, b = sp.edges[0], sp.edges[1]
+                step = 16 * o.seed_bits  # about 16 base seeds per task
+                for j in range(0, a.size, step):
+                    av_futs.append((j, runner.submit(_avalanche_task, a[j : j + step], b[j : j + step],
+                                                     AVALANCHE_BYTES)))
+        out.av_tasks = len(av_futs)
         try:
-            done_seeds = 0
-            for i, f in enumerate(futs):
-                r = collect(f)
-                if isinstance(r, TaskFailure):
-                    failure = r
-                    break
-                if r is not None:
-                    blocks[i] = r
-                    done_seeds += r.n
-                if progress:
-                    progress(f"seeds {done_seeds}/{S} (block {i + 1}/{nblocks})")
-            if failure is None:
-                for j, f in av_futs:
+            with armed():
+                done_seeds = 0
+                for i, f in enumerate(futs):
                     r = collect(f)
                     if isinstance(r, TaskFailure):
                         failure = r
                         break
                     if r is not None:
-                        av_parts.append((j, r))
-                if progress and av_futs:
-                    progress("avalanche done")
+                        out.blocks[i] = r
+                        done_seeds += r.n
+                    if progress:
+                        progress(f"seeds {done_seeds}/{S} (block {i + 1}/{nblocks})")
+                if failure is None:
+                    for j, f in av_futs:
+                        r = collect(f)
+                        if isinstance(r, TaskFailure):
+                            failure = r
+                            break
+                        if r is not None:
+                            out.av_parts.append((j, r))
+                    if progress and av_futs:
+                        progress("avalanche done")
         except KeyboardInterrupt:
-            interrupted = True
+            out.interrupted = True
         if failure is not None:
             for f in futs + [f for _, f in av_futs]:
                 f.cancel()
             raise failure.error()
-        # batteries on the merged streams (from the groups that finished)
-        if lost and runner.mode == "local":
-            notes.append("batteries on merged streams not run: the local worker pool broke")
-        elif not interrupted:
-            merged_inputs: list[tuple[str, np.ndarray]] = []
-            for k in groups:
-                parts = [bl.merged[k] for bl in blocks if bl is not None and k in bl.merged]
-                if parts:
-                    merged_inputs.append((f"interleave k={k}", np.concatenate(parts)))
-            if xor_groups:
-                parts = [bl.xor for bl in blocks if bl is not None and bl.xor is not None]
-                if parts:
-                    merged_inputs.append(("xor pairs", np.concatenate(parts)))
-            try:
-                for rid, arr in merged_inputs:
-                    if progress:
-                        progress(f"battery on {rid} ({format_size(arr.size)})")
-                    res = _sub_battery(arr, rid, runner.battery_executor, notes)
-                    sub_results[rid] = res
-                    if res is not None and res.get("incomplete"):
-                        lost.append(res["incomplete"])
-            except KeyboardInterrupt:
-                interrupted = True
-        executor_name = runner.describe()
-        workers_used = runner.workers if runner.mode != "dask" else (runner._dask.workers if runner._dask else None)
+        if out.lost and runner.mode == "local":
+            sp.notes.append("batteries on merged streams not run: the local worker pool broke")
+        elif not out.interrupted:
+            _merged_batteries(sp, out, runner.battery_executor, progress)
+        out.executor_name = runner.describe()
+        out.workers_used = runner.workers if runner.mode != "dask" else (runner._dask.workers if runner._dask else None)
+    return out
 
-    incomplete_reason = "interrupted" if interrupted else (f"a worker was lost ({lost[0]})" if lost else None)
-    finished = [bl for bl in blocks if bl is not None]
-    if incomplete_reason is not None:
-        missing = S - sum(bl.n for bl in finished)
-        what = f"{missing} of {S} seeds did not finish" if missing else "some tasks did not finish"
-        if edges is not None and len(av_parts) < len(av_futs):
-            what += f"; {len(av_futs) - len(av_parts)} of {len(av_futs)} avalanche tasks did not finish"
-        notes.append(f"incomplete run: {incomplete_reason}; {what}; the verdict covers only what finished")
-    rows: list[CheckReport] = []
-    plan_rows: list[dict[str, Any]] = []
+
+def _merged_batteries(sp: SweepPlan, out: SweepTasks, executor: Any, progress: Callable[[str], None] | None) -> None:
+    """The battery on each merged stream (from the groups that finished)."""
+    merged_inputs: list[tuple[str, np.ndarray]] = []
+    for k in sp.groups:
+        parts = [bl.merged[k] for bl in out.finished if k in bl.merged]
+        if parts:
+            merged_inputs.append((f"interleave k={k}", np.concatenate(parts)))
+    if sp.xor_groups:
+        parts = [bl.xor for bl in out.finished if bl.xor is not None]
+        if parts:
+            merged_inputs.append(("xor pairs", np.concatenate(parts)))
+    try:
+        for rid, arr in merged_inputs:
+            if progress:
+                progress(f"battery on {rid} ({format_size(arr.size)})")
+            res = _sub_battery(arr, rid, executor, sp.notes)
+            out.sub_results[rid] = res
+            if res is not None and res.get("incomplete"):
+                out.lost.append(res["incomplete"])
+    except KeyboardInterrupt:
+        out.interrupted = True
+
+
+def _per_seed_rows(sp: SweepPlan, finished: list[_Block], rows: list[CheckReport], plan_rows: list[dict]) -> None:
+    """Per-seed checks: each seed's stream is one replicate; the battery's second level across seeds."""
     registry = load_all()
-    idx_seeds = np.concatenate([np.arange(bl.start, bl.start + bl.n) for bl in finished]) if finished else np.empty(0, int)
-    Sd = int(idx_seeds.size)
-
-    # 1. per-seed checks, second level across seeds
-    for j, pc in enumerate(per_seed):
+    for j, pc in enumerate(sp.per_seed):
         outcome = Outcome(pc, [], [], 0, 0.0)
         for bl in finished:
             for s_i, (res, err) in enumerate(bl.per_seed[j]):
                 outcome.results.append(res)
                 if err:
-                    outcome.errors.append(f"seed {int(seeds[bl.start + s_i])}: {err}")
+                    outcome.errors.append(f"seed {int(sp.seeds[bl.start + s_i])}: {err}")
             outcome.seconds += bl.seconds[j]
         outcome.bytes = pc.bytes * len(outcome.results)
         rid = f"per-seed {pc.id}"
         spec = registry[pc.key]
-        plan_rows.append(_plan_row(rid, "per-seed", pc.params, pc.view, pc.bytes * S, S))
+        plan_rows.append(_plan_row(rid, "per-seed", pc.params, pc.view, pc.bytes * sp.S, sp.S))
         if not outcome.results:
             continue
         rr = G.second_level(outcome)
@@ -497,12 +572,13 @@ def run_sweep(
                          rr.replicates, sl, rr.null, f"{spec.title}, per seed; second level across seeds",
                          replicate_p=rr.replicate_p, seconds=outcome.seconds))
 
-    # 2./3. merged streams
-    for rid, res in sub_results.items():
+
+def _merged_rows(sp: SweepPlan, tasks: SweepTasks, rows: list[CheckReport], plan_rows: list[dict]) -> None:
+    for rid, res in tasks.sub_results.items():
         key = "xor-pairs" if rid.startswith("xor") else "interleave"
-        params = {"k": int(rid.split("=")[1])} if key == "interleave" else {"pairs": xor_groups}
+        params = {"k": int(rid.split("=")[1])} if key == "interleave" else {"pairs": sp.xor_groups}
         if key == "interleave":
-            params["groups"] = groups[params["k"]]
+            params["groups"] = sp.groups[params["k"]]
         plan_rows.append(_plan_row(rid, key, params, "bytes", res["bytes"] if res else 0, 1))
         if res is None:
             continue
@@ -511,80 +587,112 @@ def run_sweep(
         rows.append(_row(rid, key, params, "bytes", "continuous", None, res["p_value"], res["bytes"],
                          res["segments"], res["details"], "the battery's checks (Bonferroni minimum)", title))
 
-    # 3. cross-correlation
-    if run_x:
-        rid = f"cross-correlation lags={o.lags}"
-        zs, pairs = [], []
-        for bl in finished:
-            zs.append(bl.z)
-            npairs = bl.z.shape[0]
-            pairs.append(np.stack([seeds[bl.start : bl.start + npairs], seeds[bl.start + 1 : bl.start + 1 + npairs]],
-                                  axis=1))
-        z = np.concatenate(zs) if zs else np.empty((0, 2 * o.lags + 1))
-        pr = np.concatenate(pairs) if pairs else np.empty((0, 2), np.uint64)
-        m = M.cross_correlation(z, o.lags, pr)
-        plan_rows.append(_plan_row(rid, "cross-correlation", {"lags": o.lags, "pairs": "adjacent"}, "uniforms",
-                                   S * B, max(S - 1, 0)))
-        if m is not None:
-            rows.append(_row(rid, "cross-correlation", {"lags": o.lags, "pairs": "adjacent"}, "uniforms", m["kind"],
-                             m["statistic"], m["p_value"], 2 * B * z.shape[0], z.shape[0], m["details"], m["null"],
-                             "lagged correlation between the uniforms of adjacent seeds' streams"))
 
-    # 4. avalanche
+def _cross_rows(sp: SweepPlan, finished: list[_Block], rows: list[CheckReport], plan_rows: list[dict]) -> None:
+    o, seeds = sp.o, sp.seeds
+    rid = f"cross-correlation lags={o.lags}"
+    zs, pairs = [], []
+    for bl in finished:
+        zs.append(bl.z)
+        npairs = bl.z.shape[0]
+        pairs.append(np.stack([seeds[bl.start : bl.start + npairs], seeds[bl.start + 1 : bl.start + 1 + npairs]],
+                              axis=1))
+    z = np.concatenate(zs) if zs else np.empty((0, 2 * o.lags + 1))
+    pr = np.concatenate(pairs) if pairs else np.empty((0, 2), np.uint64)
+    m = M.cross_correlation(z, o.lags, pr)
+    plan_rows.append(_plan_row(rid, "cross-correlation", {"lags": o.lags, "pairs": "adjacent"}, "uniforms",
+                               sp.S * sp.B, max(sp.S - 1, 0)))
+    if m is not None:
+        rows.append(_row(rid, "cross-correlation", {"lags": o.lags, "pairs": "adjacent"}, "uniforms", m["kind"],
+                         m["statistic"], m["p_value"], 2 * sp.B * z.shape[0], z.shape[0], m["details"], m["null"],
+                         "lagged correlation between the uniforms of adjacent seeds' streams"))
+
+
+def _avalanche_rows(sp: SweepPlan, tasks: SweepTasks, rows: list[CheckReport], plan_rows: list[dict]) -> int:
+    """The avalanche row; returns the bytes its streams read."""
+    a, b, bit, dropped, nbases = sp.edges
+    o = sp.o
     av_bytes = 0
-    if edges is not None:
-        a, b, bit, dropped, nbases = edges
-        rid = f"avalanche seed-bits={o.seed_bits} output-bits={8 * AVALANCHE_BYTES}"
-        params = {"seeds": nbases, "seed_bits": o.seed_bits, "output_bits": 8 * AVALANCHE_BYTES}
-        if av_parts:
-            d = np.concatenate([p for _, p in av_parts])
-            take = np.concatenate([np.arange(j, j + p.size) for j, p in av_parts])
-            m = M.avalanche(d, bit[take], 8 * AVALANCHE_BYTES, o.seed_bits)
-            if m is not None:
-                av_bytes = int(np.unique(np.concatenate([a[take], b[take]])).size) * AVALANCHE_BYTES
-                m["details"]["pairs_dropped"] = int(dropped)
-                m["details"]["pairs_dropped_why"] = "repeated pairs and pairs closing a cycle (kept pairs form a forest)"
-                rows.append(_row(rid, "avalanche", params, "bits", m["kind"], m["statistic"], m["p_value"], av_bytes,
-                                 int(d.size), m["details"], m["null"],
-                                 "seed avalanche: output bits changed by flipping one seed bit"))
-        plan_rows.append(_plan_row(rid, "avalanche", params, "bits", int(a.size) * 2 * AVALANCHE_BYTES, int(a.size)))
+    rid = f"avalanche seed-bits={o.seed_bits} output-bits={8 * AVALANCHE_BYTES}"
+    params = {"seeds": nbases, "seed_bits": o.seed_bits, "output_bits": 8 * AVALANCHE_BYTES}
+    if tasks.av_parts:
+        d = np.concatenate([p for _, p in tasks.av_parts])
+        take = np.concatenate([np.arange(j, j + p.size) for j, p in tasks.av_parts])
+        m = M.avalanche(d, bit[take], 8 * AVALANCHE_BYTES, o.seed_bits)
+        if m is not None:
+            av_bytes = int(np.unique(np.concatenate([a[take], b[take]])).size) * AVALANCHE_BYTES
+            m["details"]["pairs_dropped"] = int(dropped)
+            m["details"]["pairs_dropped_why"] = "repeated pairs and pairs closing a cycle (kept pairs form a forest)"
+            rows.append(_row(rid, "avalanche", params, "bits", m["kind"], m["statistic"], m["p_value"], av_bytes,
+                             int(d.size), m["details"], m["null"],
+                             "seed avalanche: output bits changed by flipping one seed bit"))
+    plan_rows.append(_plan_row(rid, "avalanche", params, "bits", int(a.size) * 2 * AVALANCHE_BYTES, int(a.size)))
+    return av_bytes
 
-    # 5. duplicates and overlaps
-    if run_ov:
-        rid = "duplicates and overlaps"
-        params = {"window_bytes": 16, "window_spacing": spacing}
-        plan_rows.append(_plan_row(rid, "overlaps", params, "bytes", S * B, S))
-        if finished:
-            dig = np.concatenate([bl.digests for bl in finished])
-            an = [np.concatenate([bl.anchors[i] for bl in finished]) for i in range(4)]
-            # anchors carry global seed indices; map them to positions among the finished seeds
-            pos_of = np.full(S, -1, dtype=np.int64)
-            pos_of[idx_seeds] = np.arange(Sd)
-            m = M.overlaps(seeds[idx_seeds], dig, pos_of[an[0]], an[1], an[2], an[3], spacing, B)
-            m["details"]["found_with_probability_0.999"] = (
-                f"overlaps of at least {M.overlap_detection_length(spacing)} bytes (about)")
-            rows.append(_row(rid, "overlaps", params, "bytes", m["kind"], m["statistic"], m["p_value"], Sd * B, Sd,
-                             m["details"], m["null"], "identical streams and streams that are shifted copies"))
 
-    # 6. early outputs
-    if run_early:
-        rid = f"early bytes positions={P}"
-        params = {"positions": P}
-        plan_rows.append(_plan_row(rid, "early-bytes", params, "bytes", S * P, S))
-        if finished:
-            m = M.early_bytes(np.concatenate([bl.early for bl in finished]))
-            if m is None:
-                notes.append("early bytes: needs at least 10 seeds")
-            else:
-                params = {"positions": P, "cells": m["details"]["cells"]}
-                rows.append(_row(rid, "early-bytes", params, "bytes", m["kind"], m["statistic"], m["p_value"], Sd * P,
-                                 Sd, m["details"], m["null"], "distribution of each early output byte across seeds"))
+def _overlap_rows(sp: SweepPlan, finished: list[_Block], idx_seeds: np.ndarray, rows: list[CheckReport],
+                  plan_rows: list[dict]) -> None:
+    rid = "duplicates and overlaps"
+    S, B, Sd = sp.S, sp.B, int(idx_seeds.size)
+    params = {"window_bytes": 16, "window_spacing": sp.spacing}
+    plan_rows.append(_plan_row(rid, "overlaps", params, "bytes", S * B, S))
+    if not finished:
+        return
+    dig = np.concatenate([bl.digests for bl in finished])
+    an = [np.concatenate([bl.anchors[i] for bl in finished]) for i in range(4)]
+    # anchors carry global seed indices; map them to positions among the finished seeds
+    pos_of = np.full(S, -1, dtype=np.int64)
+    pos_of[idx_seeds] = np.arange(Sd)
+    m = M.overlaps(sp.seeds[idx_seeds], dig, pos_of[an[0]], an[1], an[2], an[3], sp.spacing, B)
+    m["details"]["found_with_probability_0.999"] = (
+        f"overlaps of at least {M.overlap_detection_length(sp.spacing)} bytes (about)")
+    rows.append(_row(rid, "overlaps", params, "bytes", m["kind"], m["statistic"], m["p_value"], Sd * B, Sd,
+                     m["details"], m["null"], "identical streams and streams that are shifted copies"))
 
-    # grading: Holm over every row, as for `test`
-    graded = [c for c in rows if c.error is None]
-    grades, adj = G.holm_grades([c.p_value for c in graded], alpha)
-    for c, g, a_ in zip(graded, grades, adj):
-        c.grade, c.adjusted_p = g, a_
+
+def _early_rows(sp: SweepPlan, finished: list[_Block], Sd: int, rows: list[CheckReport], plan_rows: list[dict]) -> None:
+    P = sp.P
+    rid = f"early bytes positions={P}"
+    params = {"positions": P}
+    plan_rows.append(_plan_row(rid, "early-bytes", params, "bytes", sp.S * P, sp.S))
+    if not finished:
+        return
+    m = M.early_bytes(np.concatenate([bl.early for bl in finished]))
+    if m is None:
+        sp.notes.append("early bytes: needs at least 10 seeds")
+        return
+    params = {"positions": P, "cells": m["details"]["cells"]}
+    rows.append(_row(rid, "early-bytes", params, "bytes", m["kind"], m["statistic"], m["p_value"], Sd * P,
+                     Sd, m["details"], m["null"], "distribution of each early output byte across seeds"))
+
+
+def sweep_report(sp: SweepPlan, tasks: SweepTasks, factory: SeedFactory, alpha: float, seed_spec: str,
+                 elapsed: float) -> Report:
+    """The rows from what the tasks returned, graded together (Holm over every row, as for `test`)."""
+    o, S, B, seeds = sp.o, sp.S, sp.B, sp.seeds
+    notes = sp.notes
+    finished = tasks.finished
+    reason = tasks.incomplete_reason
+    if reason is not None:
+        missing = S - sum(bl.n for bl in finished)
+        what = f"{missing} of {S} seeds did not finish" if missing else "some tasks did not finish"
+        if sp.edges is not None and len(tasks.av_parts) < tasks.av_tasks:
+            what += f"; {tasks.av_tasks - len(tasks.av_parts)} of {tasks.av_tasks} avalanche tasks did not finish"
+        notes.append(f"incomplete run: {reason}; {what}; the verdict covers only what finished")
+    rows: list[CheckReport] = []
+    plan_rows: list[dict[str, Any]] = []
+    idx_seeds = np.concatenate([np.arange(bl.start, bl.start + bl.n) for bl in finished]) if finished else np.empty(0, int)
+    Sd = int(idx_seeds.size)
+    _per_seed_rows(sp, finished, rows, plan_rows)
+    _merged_rows(sp, tasks, rows, plan_rows)
+    if sp.run_x:
+        _cross_rows(sp, finished, rows, plan_rows)
+    av_bytes = _avalanche_rows(sp, tasks, rows, plan_rows) if sp.edges is not None else 0
+    if sp.run_ov:
+        _overlap_rows(sp, finished, idx_seeds, rows, plan_rows)
+    if sp.run_early:
+        _early_rows(sp, finished, Sd, rows, plan_rows)
+
     order = {p["id"]: i for i, p in enumerate(plan_rows)}
     rows.sort(key=lambda c: order.get(c.id, 10**9))
     # the evidence: SHA-256 over the per-seed SHA-256 digests, in seed order
@@ -598,26 +706,14 @@ def run_sweep(
         "bytes_per_seed": B,
     }
     settings = {
-        "executor": executor_name, "workers_used": workers_used, "block_seeds": o.block, "lags": o.lags,
-        "interleave": list(ks), "merge_budget": o.merge_budget, "avalanche_seeds": int(n_av),
-        "seed_bits": o.seed_bits, "avalanche_output_bits": 8 * AVALANCHE_BYTES, "early_bytes": P,
-        "window_spacing": spacing, "per_seed_checks": [pc.id for pc in per_seed],
+        "executor": tasks.executor_name, "workers_used": tasks.workers_used, "block_seeds": o.block, "lags": o.lags,
+        "interleave": list(sp.ks), "merge_budget": o.merge_budget, "avalanche_seeds": int(sp.n_av),
+        "seed_bits": o.seed_bits, "avalanche_output_bits": 8 * AVALANCHE_BYTES, "early_bytes": sp.P,
+        "window_spacing": sp.spacing, "per_seed_checks": [pc.id for pc in sp.per_seed],
         "borderline_factor": G.BORDERLINE_FACTOR,
     }
-    return Report(
-        command="seeds",
-        source=source,
-        budget_bytes=S * B,
-        alpha=alpha,
-        verdict=G.run_verdict([c.grade for c in rows]),
-        combined_p=G.combined_p([c.p_value for c in rows if c.error is None]),
-        checks=rows,
-        incomplete=incomplete_reason is not None,
-        elapsed_s=time.perf_counter() - t0,
-        plan=plan_rows,
-        settings=settings,
-        notes=notes,
-    )
+    return G.graded_report("seeds", rows, alpha=alpha, source=source, budget_bytes=S * B, incomplete=reason is not None,
+                           elapsed_s=elapsed, plan=plan_rows, settings=settings, notes=notes)
 
 
 def _coarse(ps: list[float]) -> str | None:

@@ -1,4 +1,5 @@
-"""The report: what a run found, as plain data that every renderer (terminal, JSON, HTML, JUnit) reads.
+"""The report data model: what a run found, as plain data that every renderer (terminal, JSON, HTML, JUnit)
+reads. It sits below the battery and the seed sweep, which build it; ``report/`` only renders it.
 
 The JSON form is versioned (``schema``); :func:`Report.from_dict` reads it back for ``rngassay diff``.
 """
@@ -9,7 +10,7 @@ import json
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from .. import __version__
+from . import __version__
 
 SCHEMA = "rngassay-report/1"
 GRADES = ("pass", "borderline", "fail")
@@ -126,11 +127,6 @@ class Report:
 
     def to_json(self) -> str:
         return json.dumps(self.to_dict(), indent=2, allow_nan=False, default=_json_default)
-
-    def to_text(self, color: bool = False) -> str:
-        from .terminal import render
-
-        return render(self, color=color)
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> "Report":
