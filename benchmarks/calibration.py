@@ -22,7 +22,7 @@ import numpy as np
 
 def one_run(seed: int, budget: str, alpha: float) -> dict:
     from rngassay import api
-    from rngassay.checks.registry import load_all
+    from rngassay.checks.catalog import load_all
 
     rep = api.assay(gen="pcg64", seed=seed, budget=budget, workers=1, alpha=alpha)
     reg = load_all()

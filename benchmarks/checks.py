@@ -61,7 +61,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--repeat", type=int, default=1, help="timed runs per check; the best is shown")
     args = ap.parse_args(argv)
 
-    from rngassay.checks.registry import load_all
+    from rngassay.checks.catalog import load_all
     from rngassay.intake import views
     from rngassay.intake.formats import parse_format
 

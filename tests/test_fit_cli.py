@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from rngassay.cli import cli
-from rngassay.fitting import register_cli
+from rngassay.cli.fit import register_cli
 
 if "fit" not in cli.commands:  # until cli.py registers the command itself
     register_cli(cli)

@@ -11,7 +11,7 @@ from click.testing import CliRunner
 from scipy import stats
 
 from rngassay.cli import cli
-from rngassay.fitting import register_cli
+from rngassay.cli.fit import register_cli
 
 if "fit" not in cli.commands:
     register_cli(cli)

@@ -1,10 +1,12 @@
-"""The one error type the command line turns into a single line and exit code 2."""
+"""The library's error for bad input or usage; the command line turns it into a single line and exit code 2."""
 
 from __future__ import annotations
 
 
-class InputError(Exception):
+class InputError(ValueError):
     """Bad input or usage: what is wrong, where, and what to do about it.
+
+    A :class:`ValueError`, so library callers can catch it as one; it carries three parts:
 
     ``what``  -- the problem, e.g. "float outside [0, 1): 1.0"
     ``where`` -- the place, e.g. "data.txt line 12" or "stdin byte offset 4096" (may be empty)

@@ -51,7 +51,9 @@ def fake_registry(monkeypatch):
         added[key] = spec
         return spec
 
-    monkeypatch.setattr(reg, "load_all", lambda: reg.REGISTRY)
+    import rngassay.checks.catalog as cat
+
+    monkeypatch.setattr(cat, "load_all", lambda: reg.REGISTRY)
     import rngassay.battery.plan as plan_mod
     import rngassay.battery.run as run_mod
     import rngassay.battery.grade as grade_mod

@@ -42,7 +42,7 @@ from rngassay.checks.classic.frequency import check_byte_frequency, check_equidi
 from rngassay.checks.classic.gap import check_gap
 from rngassay.checks.classic.poker import check_poker
 from rngassay.checks.classic.serial import check_serial_overlapping
-from rngassay.checks.registry import load_all
+from rngassay.checks.catalog import load_all
 
 REL = 1e-9  # "equal to rounding": sums of the same terms in another order
 
@@ -559,7 +559,7 @@ def test_pooled_p_values_are_not_anti_conservative():
 def test_replicates_with_different_tables_are_not_pooled():
     # review finding: a fallback table of the same size but other cell probabilities must not be summed in
     from rngassay.battery.grade import pool_sufficient
-    from rngassay.checks.registry import load_all
+    from rngassay.checks.catalog import load_all
     from rngassay.checks.result import CheckResult
 
     spec = load_all()["gap"]

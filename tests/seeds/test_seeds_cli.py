@@ -9,7 +9,7 @@ import pytest
 
 from rngassay.cli import cli
 from rngassay.seeds import SeedFactory, SweepOptions, run_sweep
-from rngassay.seeds.cli import register_cli
+from rngassay.cli.seeds import register_cli
 
 register_cli(cli)  # the lead wires this into rngassay.cli; registering twice is a no-op
 

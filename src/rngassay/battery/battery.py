@@ -5,7 +5,7 @@ from __future__ import annotations
 import time
 from typing import Any, Callable
 
-from ..checks.registry import load_all
+from ..checks.catalog import load_all
 from ..errors import InputError
 from ..intake.stream import Stream
 from ..model import NO_VERDICT, CheckReport, Report, Round

@@ -53,7 +53,7 @@ from typing import Any
 import numpy as np
 
 from .. import stats
-from ..checks.registry import load_all
+from ..checks.catalog import load_all
 from ..checks.result import CheckResult
 from ..model import NO_VERDICT, Report
 from .run import Outcome

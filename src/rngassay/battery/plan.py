@@ -23,7 +23,8 @@ import math
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from ..checks.registry import CheckSpec, check_id, load_all
+from ..checks.registry import CheckSpec, check_id
+from ..checks.catalog import load_all
 from ..errors import InputError
 from ..intake import views
 from ..intake.formats import Format

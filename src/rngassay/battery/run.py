@@ -18,7 +18,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-from ..checks.registry import load_all
+from ..checks.catalog import load_all
 from ..checks.result import CheckResult
 from ..intake import views
 from ..intake.formats import Format

@@ -64,7 +64,6 @@ class CheckSpec:
 
 
 REGISTRY: dict[str, CheckSpec] = {}
-_ALL_LOADED = False
 
 
 def register(spec: CheckSpec) -> CheckSpec:
@@ -76,24 +75,6 @@ def register(spec: CheckSpec) -> CheckSpec:
         raise ValueError(f"check {spec.key!r} registered twice")
     REGISTRY[spec.key] = spec
     return spec
-
-
-def load_all() -> dict[str, CheckSpec]:
-    """Import every check module so that the registry is complete, and return it."""
-    global _ALL_LOADED
-    if _ALL_LOADED:  # the module scan costs ~0.7 ms, and call_check runs it for every check and segment
-        return REGISTRY
-    import importlib
-    import pkgutil
-
-    from . import bits, classic, transform
-
-    for pkg in (classic, bits, transform):
-        for mod in pkgutil.iter_modules(pkg.__path__):
-            if not mod.name.startswith("_"):
-                importlib.import_module(f"{pkg.__name__}.{mod.name}")
-    _ALL_LOADED = True
-    return REGISTRY
 
 
 def check_id(key: str, params: dict) -> str:

@@ -48,7 +48,7 @@ from ..battery.plan import PlannedCheck, make_plan
 from ..battery.run import (Outcome, ViewCache, armed, call_check, defer_signals, received_signal, run_plan,
                           signals_deferred)
 from ..checks.result import CheckResult
-from ..checks.registry import load_all
+from ..checks.catalog import load_all
 from ..errors import InputError
 from ..intake.formats import parse_format
 from ..intake.sources import RawSource

@@ -21,7 +21,7 @@ from rngassay.checks.bits.complexity import _bm_blocks
 from rngassay.checks.bits.rank import matrix_ranks
 from rngassay.checks.bits.runs import _longest_runs
 from rngassay.checks.bits.serial import pattern_counts
-from rngassay.checks.registry import load_all
+from rngassay.checks.catalog import load_all
 from rngassay.errors import InputError
 
 from bits_testkit import REFERENCE_DIR

@@ -15,7 +15,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from rngassay.checks.registry import load_all
+from rngassay.checks.catalog import load_all
 from rngassay.generators import make_generator
 
 MiB = 1 << 20

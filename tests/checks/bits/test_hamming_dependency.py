@@ -77,7 +77,7 @@ from rngassay.checks.bits.hamming import (
     walsh_z,
     window_counts,
 )
-from rngassay.checks.registry import load_all
+from rngassay.checks.catalog import load_all
 
 KiB, MiB = 1 << 10, 1 << 20
 

@@ -22,7 +22,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from rngassay.checks.registry import load_all
+from rngassay.checks.catalog import load_all
 
 REPLICATES = 200
 MIN_VALUES = 1024

@@ -45,7 +45,8 @@ from typing import Any
 import numpy as np
 import pytest
 
-from rngassay.checks.registry import CheckSpec, load_all
+from rngassay.checks.registry import CheckSpec
+from rngassay.checks.catalog import load_all
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
 from rngassay.generators import GENERATORS, make_generator

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from rngassay.checks.registry import load_all
+from rngassay.checks.catalog import load_all
 from rngassay.checks.transform._common import CONTINUOUS_TARGETS, DISCRETE_TARGETS
 from rngassay.checks.transform.quantile import check_quantile_transform, transform
 from rngassay.stats import ad_statistic

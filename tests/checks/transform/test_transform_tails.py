@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from rngassay.checks.registry import load_all
+from rngassay.checks.catalog import load_all
 from rngassay.checks.transform._common import lower_tail_probability, resolve_bits, upper_tail_probability
 from rngassay.checks.transform.tails import check_exact_endpoints, check_tail_count, normal_thresholds
 from rngassay.stats import pool_binomial, pool_poisson

@@ -7,7 +7,7 @@ import sys
 
 import click
 
-from .defaults import (
+from ..seeds.defaults import (
     DEFAULT_AVALANCHE_SEEDS,
     DEFAULT_AVALANCHE_SEEDS_COMMAND,
     DEFAULT_EARLY_BYTES,
@@ -50,7 +50,7 @@ def register_cli(group: click.Group) -> click.Command:
     """Add the ``seeds`` command to ``group`` (once) and return it."""
     if "seeds" in group.commands:
         return group.commands["seeds"]
-    from ..cli import Progress, _check_outputs, _report_options, _split, check_workers, finish, input_paths
+    from .common import Progress, check_outputs, check_workers, finish, input_paths, report_options, split
 
     sets = "; ".join(f"{k}: {v}" for k, v in SEED_SETS.items())
 
@@ -91,7 +91,7 @@ def register_cli(group: click.Group) -> click.Command:
     @click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
     @click.option("--cluster", default=None, metavar="ADDRESS",
                   help="Run on a Dask cluster, e.g. tcp://host:8786 (pip install 'rngassay[cluster]').")
-    @_report_options
+    @report_options
     def seeds_cmd(python_spec, command, shell, gen, seeds_spec, seed_set, bytes_per_seed, checks, skip, per_seed,
                   lags, interleave, merge_budget, avalanche_seeds, seed_bits, early_bytes, alpha, workers, cluster,
                   json_path, html_path, junit_path, strict, quiet) -> None:
@@ -109,7 +109,7 @@ def register_cli(group: click.Group) -> click.Command:
         """
         from ..battery.run import defer_signals
         from ..errors import InputError
-        from .sweep import sweep_seeds
+        from ..seeds.sweep import sweep_seeds
 
         defer_signals()  # a stop signal while starting up is kept for the run, which then ends in a report
         check_workers(workers, cluster)
@@ -117,14 +117,14 @@ def register_cli(group: click.Group) -> click.Command:
         if avalanche_seeds is not None and avalanche_seeds < 0:
             raise InputError(f"--avalanche-seeds must be >= 0, got {avalanche_seeds}", "", "e.g. 128")
         seeds_file = (seeds_spec[1:],) if seeds_spec and seeds_spec.startswith("@") else ()
-        outputs = _check_outputs(json_path, html_path, junit_path,
+        outputs = check_outputs(json_path, html_path, junit_path,
                                  input_paths(None, command, shell, python_spec, seeds_file))
         progress = Progress(quiet)
         try:
             report = sweep_seeds(
                 seeds_spec, seed_set=seed_set, python=python_spec, command=command, shell=shell, gen=gen,
-                bytes_per_seed=bytes_per_seed, checks=_split(checks), skip=_split(skip),
-                per_seed_checks=_split(per_seed), lags=lags, interleave=_ints(interleave, "--interleave"),
+                bytes_per_seed=bytes_per_seed, checks=split(checks), skip=split(skip),
+                per_seed_checks=split(per_seed), lags=lags, interleave=_ints(interleave, "--interleave"),
                 merge_budget=merge_budget, avalanche_seeds=avalanche_seeds, seed_bits=seed_bits,
                 early_bytes=early_bytes, alpha=alpha, workers=workers or (os.cpu_count() or 1) if cluster is None
                 else None, cluster=cluster, progress=progress,

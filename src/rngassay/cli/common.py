@@ -1,0 +1,246 @@
+"""What the commands share: source and report options, progress, checks of outputs and workers, writing the
+reports, the exit code. Public so that every command module uses the same ones."""
+
+from __future__ import annotations
+
+import os
+import sys
+from typing import Any
+
+import click
+
+from ..errors import InputError
+
+EXIT_OK, EXIT_FAIL, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
+
+def out(text: str = "") -> None:
+    """Print to standard output; a reader that closed the pipe early (``| head``) ends the output quietly,
+    and the command still exits with its own code."""
+    try:
+        click.echo(text)
+    except BrokenPipeError:
+        try:
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+        except (OSError, ValueError):  # pragma: no cover
+            pass
+
+
+def source_options(f):
+    """Options naming the source; shared by commands that read a stream."""
+    opts = [
+        click.argument("source", required=False),
+        click.option("--format", "fmt", default=None, metavar="F",
+                     help="Input format: u1 (raw bytes, default), <u2 >u2 <u4 >u4 <u8 >u8, <f4 <f8, text."),
+        click.option("--range", "value_range", default=None, metavar="LO:HI",
+                     help="Inclusive range of text integers, e.g. 1:6 for a die."),
+        click.option("--command", default=None, metavar="CMD",
+                     help="Read the standard output of this command (run without a shell)."),
+        click.option("--shell", is_flag=True, help="Run --command through the shell."),
+        click.option("--python", "python_spec", default=None, metavar="FILE.py:NAME",
+                     help="A factory returning a numpy BitGenerator, Generator or draw(n_bytes) callable."),
+        click.option("--gen", default=None, metavar="NAME", help="A built-in reference generator (see `rngassay catalog`)."),
+        click.option("--seed", default=None, type=int, metavar="N", help="Seed for --gen or --python."),
+    ]
+    for o in reversed(opts):
+        f = o(f)
+    return f
+
+
+class Progress:
+    """A progress bar on stderr, shown only on a terminal, unless --quiet, and only once a run has taken
+    more than ``delay`` seconds (short runs stay silent)."""
+
+    def __init__(self, quiet: bool, delay: float = 2.0):
+        import time
+
+        self.on = (not quiet) and sys.stderr.isatty()
+        self._last = ""
+        self._t0 = time.monotonic()
+        self._delay = delay
+
+    def __call__(self, text: str) -> None:
+        import re
+        import time
+
+        if not self.on or time.monotonic() - self._t0 < self._delay:
+            return
+        m = re.search(r"(\d+)/(\d+)", text)
+        if m and int(m.group(2)) > 0:
+            done, total = int(m.group(1)), int(m.group(2))
+            width = 24
+            fill = round(width * min(done, total) / total)
+            text = f"[{'#' * fill}{'.' * (width - fill)}] {text}"
+        line = f"\r{text[:100]:<100}"
+        if line != self._last:
+            sys.stderr.write(line)
+            sys.stderr.flush()
+            self._last = line
+
+    def done(self) -> None:
+        if self.on and self._last:
+            sys.stderr.write("\r" + " " * 100 + "\r")
+            sys.stderr.flush()
+            self._last = ""
+
+
+
+def quiet_broken_pipe() -> None:
+    # The reader closed the pipe: that ends `emit` quietly. Point stdout at /dev/null so the
+    # interpreter's final flush does not complain.
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except OSError:  # pragma: no cover
+        pass
+    raise click.exceptions.Exit(0)
+
+
+def report_options(f):
+    opts = [
+        click.option("--json", "json_path", default=None, metavar="PATH", help="Write the report as JSON (versioned schema)."),
+        click.option("--html", "html_path", default=None, metavar="PATH", help="Write a self-contained HTML report with figures."),
+        click.option("--junit", "junit_path", default=None, metavar="PATH", help="Write JUnit XML: one test case per check."),
+        click.option("--strict", is_flag=True, help="Exit 1 for a borderline run too."),
+        click.option("--quiet", "-q", is_flag=True, help="No progress on stderr."),
+    ]
+    for o in reversed(opts):
+        f = o(f)
+    return f
+
+
+def split(values: tuple[str, ...]) -> list[str] | None:
+    out = [p.strip() for v in values for p in v.split(",") if p.strip()]
+    if values and not out:
+        raise InputError("empty --checks/--skip selection", "", "name checks, e.g. --checks gap,serial or --checks bits")
+    return out or None
+
+
+def finish(report, outputs: list[tuple[str, str]], strict: bool) -> None:
+    """Write the reports, print the table and exit: 0 pass (and borderline unless strict), 1 fail or an
+    incomplete run, 130 interrupted. Shared by `test`, `fit` and `seeds`.
+    A report that cannot be written still leaves the verdict and the table on standard output (then exit 2)."""
+    try:
+        write_outputs(report, outputs)
+    except InputError:
+        out(text(report))
+        raise
+    out(text(report))
+    for what, path in outputs:
+        out(f"{what:<12} {path}")
+    code = report.exit_code(strict=strict)
+    sig = stop_signal()
+    if sig:  # SIGINT, SIGTERM, SIGHUP: 128 + the signal's number (130, 143, 129)
+        code = 128 + sig
+    elif report.incomplete:
+        code = 130 if any("interrupted" in n for n in report.notes) else max(code, EXIT_FAIL)
+    raise click.exceptions.Exit(code)
+
+
+def text(report) -> str:
+    from ..report.terminal import render
+
+    return render(report, color=sys.stdout.isatty())
+
+
+def stop_signal() -> int | None:
+    from ..battery.run import received_signal
+
+    return received_signal()
+
+
+def check_outputs(json_path, html_path, junit_path, inputs: tuple = ()) -> list[tuple[str, str]]:
+    """Validate report paths before any work, so a long run does not end in an unwritable path and no
+    report ever replaces an input file, a device or a pipe."""
+    from ..report.files import check_report_paths
+
+    outs = [(w, p) for w, p in (("json report", json_path), ("html report", html_path), ("junit report", junit_path))
+            if p is not None]
+    check_report_paths(outs, [p for p in inputs if isinstance(p, str)])
+    return outs
+
+
+MAX_WORKERS = 256  # worker processes a run may ask for; more only adds start-up cost
+
+
+def check_workers(workers: int | None, cluster: str | None = None) -> None:
+    """--workers must be 1..MAX_WORKERS, and is not combined with --cluster (the cluster's workers do the work);
+    a --cluster address must have the form SCHEME://HOST:PORT (checked before any work or connection)."""
+    if cluster is not None:
+        from ..battery.cluster import validate_address
+
+        validate_address(cluster)
+    if workers is None:
+        return
+    if workers < 1:
+        raise InputError(f"--workers must be at least 1, got {workers}", "", "e.g. --workers 2")
+    if workers > MAX_WORKERS:
+        shown = str(workers) if len(str(workers)) <= 20 else str(workers)[:20] + "..."
+        raise InputError(f"--workers {shown} is above the maximum of {MAX_WORKERS}", "",
+                         "the battery uses at most one worker per check; e.g. --workers 4")
+    if cluster is not None:
+        raise InputError("--workers and --cluster given", "", "the cluster's workers do the work; drop --workers")
+
+
+def input_paths(source: Any = None, command: str | None = None, shell: bool = False, python_spec: str | None = None,
+                extra: tuple = ()) -> list[str]:
+    """Every existing file a run reads, for the report-path check: the source, the --python module's file,
+    a command's arguments that name existing files (the program itself too), and ``extra`` (odds, seeds files)."""
+    import shlex
+
+    paths = [p for p in (source, *extra) if isinstance(p, str) and p]
+    if python_spec:
+        mod = python_spec.rsplit(":", 1)[0] if ":" in python_spec else python_spec
+        if os.path.exists(mod):
+            paths.append(mod)
+        elif mod and not mod.endswith(".py"):
+            try:
+                import importlib.util
+
+                spec = importlib.util.find_spec(mod)
+                if spec is not None and spec.origin and os.path.exists(spec.origin):
+                    paths.append(spec.origin)
+            except (ImportError, ValueError, AttributeError):
+                pass
+    if command:
+        try:
+            words = shlex.split(command)
+        except ValueError:
+            words = command.split()
+        for w in words:
+            for part in ([w] + (w.split("=", 1)[1:] if "=" in w else [])):
+                if part and os.path.exists(part) and not os.path.isdir(part):
+                    paths.append(part)
+    return paths
+
+
+def write_outputs(report, outputs: list[tuple[str, str]]) -> None:
+    from ..report.files import write_atomic
+
+    for what, path in outputs:
+        if what.startswith("json"):
+            write_atomic(path, report.to_json() + "\n")
+        elif what.startswith("html"):
+            from ..report.html import render_html
+
+            write_atomic(path, render_html(report))
+        else:
+            from ..report.junit import render_junit
+
+            write_atomic(path, render_junit(report))
+
+
+def check_source_given(source: Any, command: Any, python_spec: Any, gen: Any) -> None:
+    if source is None and command is None and python_spec is None and gen is None and sys.stdin.isatty():
+        raise InputError(
+            "no source given", "", "name a file, '-' for standard input, or use --gen NAME, --command CMD or --python SPEC"
+        )
+
+
+def one_line(text: str) -> str:
+    """An error message as one printable line: control characters (newlines in a file name, escapes) are
+    shown escaped, never raw."""
+    from ..report.files import safe_name
+
+    return safe_name(text)
+

@@ -1,0 +1,63 @@
+"""``rngassay test``: assay a stream."""
+
+from __future__ import annotations
+
+import os
+
+import click
+
+from ..errors import InputError
+from .common import (EXIT_OK, Progress, check_outputs, check_source_given, check_workers, finish, input_paths, out,
+                     report_options, source_options, split, text, write_outputs)
+
+
+@click.command("test")
+@source_options
+@click.option("--budget", default=None, metavar="SIZE",
+              help="Bytes each check may see (default 64 MiB; a file shorter than that is read whole).")
+@click.option("--checks", "checks", multiple=True, metavar="SEL",
+              help="Run only these checks: key, family or identifier; comma-separated or repeated.")
+@click.option("--skip", "skip", multiple=True, metavar="SEL", help="Leave out these checks (same selectors).")
+@click.option("--alpha", default=1e-3, type=float, show_default=True,
+              help="Family-wise false-alarm rate of a run (Holm).")
+@click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
+@click.option("--no-retest", is_flag=True, help="Do not retest borderline checks on fresh data.")
+@click.option("--plan-only", is_flag=True, help="Show the plan (checks, parameters, bytes, replicates) and stop.")
+@click.option("--cluster", default=None, metavar="ADDRESS",
+              help="Run the checks on a Dask cluster, e.g. tcp://host:8786 (pip install 'rngassay[cluster]').")
+@report_options
+def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, budget, checks, skip, alpha,
+             workers, no_retest, plan_only, cluster, json_path, html_path, junit_path, strict, quiet) -> None:
+    """Assay a stream: read it, run the checks, grade, report; exit 0 pass, 1 fail, 2 bad input."""
+    from ..battery.run import defer_signals
+
+    defer_signals()  # a stop signal while starting up is kept for the run, which then ends in a report
+    from .. import api
+
+    check_source_given(source, command, python_spec, gen)
+    check_workers(workers, cluster)
+    outputs = check_outputs(json_path, html_path, junit_path, input_paths(source, command, shell, python_spec))
+    if shell and command is None:
+        raise InputError("--shell applies to --command only", "", "drop --shell or give --command")
+    progress = Progress(quiet)
+    try:
+        result = api.assay(
+            source, fmt=fmt, value_range=value_range, command=command, shell=shell, python=python_spec,
+            gen=gen, seed=seed, budget=budget, checks=split(checks), skip=split(skip), alpha=alpha,
+            workers=workers or (os.cpu_count() or 1), retest=not no_retest, progress=progress, plan_only=plan_only,
+            cluster=cluster,
+        )
+    except InputError as e:
+        partial = getattr(e, "partial_report", None)
+        if partial is not None:  # bad data mid-run: file what finished, marked incomplete, then the error
+            progress.done()
+            write_outputs(partial, outputs)
+            out(text(partial))
+        raise
+    finally:
+        progress.done()
+    if plan_only:
+        out(result.describe())
+        raise click.exceptions.Exit(EXIT_OK)
+    finish(result, outputs, strict)
+
