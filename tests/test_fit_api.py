@@ -1,4 +1,5 @@
-"""rngassay.fitting: declarations, reading, the fit-specific checks and their laws, the report."""
+"""`fit`: declarations (checks.transform.declared), reading (intake.variates), the fit-specific checks and their
+laws (checks.transform.conformance), the report (api.fit, battery.conformance)."""
 
 import json
 import math
@@ -8,21 +9,18 @@ import pytest
 from scipy import stats
 
 from rngassay.errors import InputError
-from rngassay.fitting import (
-    Declaration,
-    categories_for,
+from rngassay.api import fit
+from rngassay.checks.transform.conformance import (
     extreme_value_check,
-    fit,
     outcome_deviation_check,
     outcome_frequency_check,
-    parse_dist_spec,
     randomised_pit,
-    read_odds,
-    read_variates,
     serial_check,
     tail_count_check,
     tail_log_areas,
 )
+from rngassay.checks.transform.declared import Declaration, categories_for, parse_dist_spec, read_odds
+from rngassay.intake.variates import read_variates
 
 
 def pcg(seed):

@@ -2,7 +2,7 @@
 
 import numpy as np
 
-from rngassay.fitting import fit
+from rngassay.api import fit
 
 
 def pcg(seed):

@@ -4,7 +4,9 @@ import numpy as np
 import pytest
 from scipy import stats as sps
 
-from rngassay.fitting import decimal_grid, fit, interval_pit
+from rngassay.api import fit
+from rngassay.checks.transform.conformance import interval_pit
+from rngassay.intake.views import decimal_grid
 
 
 def test_decimal_grid_detection():

@@ -33,17 +33,18 @@ def test_fit_interrupted_during_its_checks_reports_what_finished(monkeypatch):
     # fit returns a report marked incomplete, with the checks that finished, and never a silent pass
     import numpy as np
 
-    from rngassay import fitting
+    from rngassay import api
+    from rngassay.battery import conformance
 
     def stop(*a, **k):
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(fitting, "extreme_value_check", stop)
+    monkeypatch.setattr(conformance, "extreme_value_check", stop)
     x = np.random.default_rng(4).normal(size=5000)
-    rep = fitting.fit(x, dist="norm")
+    rep = api.fit(x, dist="norm")
     assert rep.incomplete
     assert any("interrupted during the fit checks" in n for n in rep.notes)
     assert {c.key for c in rep.checks} >= {"anderson-darling"} and not any(c.id.startswith("pit:") for c in rep.checks)
-    monkeypatch.setattr(fitting, "anderson_darling_check", stop)
-    rep0 = fitting.fit(x, dist="norm")
+    monkeypatch.setattr(conformance, "anderson_darling_check", stop)
+    rep0 = api.fit(x, dist="norm")
     assert rep0.verdict == "no verdict" and rep0.exit_code() == 2

@@ -17,6 +17,7 @@ import numpy as np
 import pytest
 
 from rngassay import api
+from rngassay.intake import budget as intake_budget, memory as intake_memory
 from rngassay.battery.battery import stopped_report
 from rngassay.battery.plan import make_plan
 from rngassay.errors import InputError
@@ -153,13 +154,13 @@ def test_pipe_with_a_budget_is_read_in_segments_and_matches_the_file(monkeypatch
     data = np.random.default_rng(11).bytes(1 << 20)
     p = tmp_path / "d.bin"
     p.write_bytes(data)
-    monkeypatch.setattr(api, "BUFFER_LIMIT", 64 << 10)
+    monkeypatch.setattr(intake_memory, "BUFFER_LIMIT", 64 << 10)
 
     def boom(*a, **k):
         raise AssertionError("piped input read whole")
 
     from_file = api.assay(str(p), budget="1MiB", workers=1, retest=False)
-    monkeypatch.setattr(api, "_buffered", boom)
+    monkeypatch.setattr(intake_budget, "buffered", boom)
     from_pipe = api.assay(StdinSource(io.BufferedReader(io.BytesIO(data))),
                           budget="1MiB", workers=1, retest=False)
     assert from_pipe.source["sha256"] == from_file.source["sha256"]
@@ -168,7 +169,7 @@ def test_pipe_with_a_budget_is_read_in_segments_and_matches_the_file(monkeypatch
 
 
 def test_short_pipe_with_a_budget_is_exit_2_with_a_partial_report(monkeypatch, run_cli, tmp_path):
-    monkeypatch.setattr(api, "BUFFER_LIMIT", 64 << 10)
+    monkeypatch.setattr(intake_memory, "BUFFER_LIMIT", 64 << 10)
     j = tmp_path / "s.json"
     r = run_cli("test", "-", "--budget", "1MiB", "--workers", "1", "-q", "--json", j,
                 stdin=np.random.default_rng(12).bytes(700_000))
@@ -209,7 +210,7 @@ def test_a_file_that_shrinks_mid_run_is_named_as_such(tmp_path, monkeypatch):
     from rngassay.errors import InputError
 
     path = tmp_path / "big.bin"
-    size = api_mod.BUFFER_LIMIT + (8 << 20)
+    size = intake_memory.BUFFER_LIMIT + (8 << 20)
     with open(path, "wb") as f:
         f.truncate(size)  # sparse zeros: only the byte count matters here
     real = api_mod.make_plan

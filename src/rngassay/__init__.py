@@ -3,7 +3,7 @@
 ``rngassay.assay(source, budget=...)`` runs the battery and returns a report; see :mod:`rngassay.api`.
 """
 
-__version__ = "0.1.0"
+from ._version import __version__
 
 __all__ = ["assay", "fit", "sweep_seeds", "render_text", "__version__"]
 

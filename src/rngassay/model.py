@@ -10,7 +10,7 @@ import json
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from . import __version__
+from ._version import __version__
 
 SCHEMA = "rngassay-report/1"
 GRADES = ("pass", "borderline", "fail")

@@ -8,6 +8,8 @@ import pytest
 from scipy import stats as sps
 
 from rngassay import api
+from rngassay.intake import memory as intake_memory
+from rngassay import stats as ra_stats
 from rngassay.battery import grade as G
 from rngassay.battery.plan import PlannedCheck
 from rngassay.battery.run import Outcome
@@ -20,7 +22,7 @@ from rngassay.intake.sources import RawSource
 def test_sidak_min_exact_formula():
     # P(min of R iid U(0,1) <= x) = 1 - (1 - x)^R (exact formula)
     for x, R in [(0.01, 8), (1e-12, 32), (0.5, 4)]:
-        assert G.sidak_min([x] + [0.9] * (R - 1)) == pytest.approx(1 - (1 - x) ** R, rel=1e-12)
+        assert ra_stats.sidak_min([x] + [0.9] * (R - 1)) == pytest.approx(1 - (1 - x) ** R, rel=1e-12)
 
 
 def test_holm_grades_against_hand_computation():
@@ -178,7 +180,7 @@ def test_bad_value_mid_run_reports_partial_then_error(fake_registry, monkeypatch
 
     fake_registry("firstbyte", lambda d, **p: CheckResult("firstbyte", 0.0, 0.5, "t", "discrete"), kind="discrete", need=8,
                   view="uniforms")
-    monkeypatch.setattr(api_mod, "BUFFER_LIMIT", 0)  # stream the file, as for a large one
+    monkeypatch.setattr(intake_memory, "BUFFER_LIMIT", 0)  # stream the file, as for a large one
     seg = 1 << 20
     good = np.full(seg * 2 // 8, 0.5)
     bad = np.full(seg * 2 // 8, 0.5)

@@ -24,7 +24,7 @@ from rngassay.errors import InputError  # noqa: E402
 from rngassay.intake.formats import parse_format  # noqa: E402
 from rngassay.intake.stream import Stream  # noqa: E402
 from rngassay.seeds import SeedFactory, SweepOptions, run_sweep  # noqa: E402
-from rngassay.seeds.sweep import _BytesSource  # noqa: E402
+from rngassay.intake.memory import BytesSource as _BytesSource  # noqa: E402
 
 OPTS = SweepOptions(bytes_per_seed=4096, merge_budget=64 << 10, avalanche_seeds=16)
 # the worker-killing tests leave out the batteries on merged streams (each restarted worker would load
@@ -92,6 +92,7 @@ def serial_report():
     return run_sweep(SEEDS, SeedFactory.from_options(factory=sound), options=OPTS, workers=1)
 
 
+@pytest.mark.slow  # the whole sweep on a real cluster and in-process (~20 s); the fast run keeps the executor tests
 def test_cluster_report_equals_serial(client, serial_report):
     r = run_sweep(SEEDS, SeedFactory.from_options(factory=sound), options=OPTS, client=client)
     assert r.settings["executor"].startswith("dask")
@@ -129,6 +130,7 @@ def test_killed_worker_is_survived(client, tmp_path):
     assert _comparable(r) == _comparable(ref)
 
 
+@pytest.mark.slow  # real worker processes killed and restarted (~12 s)
 def test_task_that_keeps_killing_workers_makes_an_incomplete_report(client):
     # give up after the first death (the default is 3 retries; 0 keeps the test short)
     def set_failures(dask_scheduler, n):

@@ -11,8 +11,8 @@ from ..intake.stream import Stream
 from ..model import NO_VERDICT, CheckReport, Report, Round
 from . import grade as G
 from .plan import Plan
-from .run import (Executor, Outcome, defer_signals, received_signal, run_plan, signal_guard, signal_name,
-                  signals_deferred)
+from ..signals import defer_signals, received_signal, signal_guard, signal_name, signals_deferred
+from .run import Executor, Outcome, run_plan
 
 
 def run_battery(

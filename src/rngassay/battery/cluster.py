@@ -1,8 +1,8 @@
 """Running the battery's (and the seed sweep's) tasks on a Dask distributed cluster.
 
 :class:`DaskExecutor` can stand in for :class:`rngassay.battery.run.Executor`: it is a context manager,
-has ``submit_segment``/``collect``/``run_segment(vals, fmt, checks)`` and a ``_pool`` whose
-``submit(fn, *args)`` returns futures with ``.result()``. Tasks are the same pure functions the local
+has the executor protocol (``submit(fn, *args)`` returning futures with ``.result()``,
+``submit_segment``/``collect``, ``describe``). Tasks are the same pure functions the local
 process pool runs, so results are identical whichever executor runs them.
 
 Failures: Dask retries a task whose worker died (``distributed.scheduler.allowed-failures``, default 3).
@@ -140,13 +140,12 @@ class DaskExecutor(Executor):
                  timeout: float = CONNECT_TIMEOUT_S):
         if address is None and client is None:
             raise InputError("no Dask scheduler address given", "--cluster", _HINT)
+        super().__init__(workers or 1)
         self.address = address
         self._client = client
         self._own = client is None
         self._timeout = timeout
-        self.workers = workers or 1
         self._requested = workers
-        self._pool = None  # type: ignore[assignment]
 
     @property
     def client(self) -> Any:
@@ -190,7 +189,3 @@ class DaskExecutor(Executor):
         data = self._pool.scatter(vals) if len(slices) > 1 else vals
         futs = [self._pool.submit(_run_segment_task, data, fmt, [checks[j] for j in s], segment) for s in slices]
         return ("futures", slices, futs, len(checks))
-
-    def run_segment(self, vals: np.ndarray, fmt, checks):
-        """Run checks on one segment and wait for them (results in plan order)."""
-        return self.collect(self.submit_segment(vals, fmt, checks))

@@ -75,18 +75,8 @@ class RoundResult:
 
 def _first_level_p(r: CheckResult, both: bool) -> float:
     if both and r.p_left is not None:
-        return stats.clip_p(min(1.0, 2.0 * min(r.p_value, r.p_left)))
+        return stats.two_sided(r.p_value, r.p_left)
     return stats.clip_p(r.p_value)
-
-
-def sidak_min(ps: list[float]) -> float:
-    """P(min of R independent uniforms <= p_min) = 1 - (1 - p_min)^R, computed without cancellation."""
-    if not ps:
-        return 1.0
-    pmin = min(ps)
-    if pmin >= 1.0:
-        return 1.0
-    return stats.clip_p(-math.expm1(len(ps) * math.log1p(-pmin)))
 
 
 def second_level(outcome: Outcome) -> RoundResult | None:
@@ -100,12 +90,12 @@ def second_level(outcome: Outcome) -> RoundResult | None:
     firsts: list[CheckResult] = []
     for rs in reps:
         ps = [_first_level_p(r, spec.both_tails) for r in rs]
-        per_rep.append(stats.clip_p(min(1.0, len(ps) * min(ps))))
+        per_rep.append(stats.bonferroni(ps))
         firsts.append(rs[0])
     multi = any(len(rs) > 1 for rs in reps)
     R = len(per_rep)
     parts: dict[str, Any] = {}
-    sid = sidak_min(per_rep)
+    sid = stats.sidak_min(per_rep)
     parts["min_replicate"] = {"p_min": min(per_rep), "p_value": sid}
     if multi:
         parts["subtests"] = max(len(rs) for rs in reps)  # replicate p = Bonferroni over sub-tests

@@ -8,10 +8,8 @@ from __future__ import annotations
 
 import concurrent.futures as cf
 from concurrent.futures.process import BrokenProcessPool
-import contextlib
 import os
 import signal
-import threading
 import time
 from dataclasses import dataclass, field
 from typing import Any, Callable
@@ -23,111 +21,12 @@ from ..checks.result import CheckResult
 from ..intake import views
 from ..intake.formats import Format
 from ..intake.stream import Stream
+from ..signals import (STOP_SIGNALS, Interrupted, _Guard, armed, defer_signals,  # noqa: F401 (re-exported)
+                       received_signal, signal_guard, signal_name, signals_deferred)
 from .plan import Plan, PlannedCheck
 
 
-# -- signals -------------------------------------------------------------------------------------------
-# SIGINT, SIGTERM and SIGHUP (Ctrl-C, a CI timeout, a closed terminal) end a run early but never lose it:
-# the first one raises :class:`Interrupted` (a KeyboardInterrupt) in the main thread, which `run_plan`
-# turns into an incomplete result; later ones are only recorded, so that grading and writing the reports
-# marked incomplete cannot be cut short by a second Ctrl-C. The exit status is 128 + the signal number.
-
-STOP_SIGNALS = tuple(getattr(signal, n) for n in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, n))
 WORKER_GRACE_S = 3.0  # after an interrupt: how long running worker tasks may take before workers are terminated
-
-
-class Interrupted(KeyboardInterrupt):
-    """A stop signal arrived; ``signum`` says which."""
-
-    def __init__(self, signum: int):
-        super().__init__(signal_name(signum))
-        self.signum = signum
-
-
-def signal_name(signum: int) -> str:
-    try:
-        return signal.Signals(signum).name
-    except ValueError:  # pragma: no cover
-        return f"signal {signum}"
-
-
-class _Guard:
-    depth = 0
-    received: int | None = None
-    deferred = False
-    saved: dict[int, Any] = {}
-
-
-def _on_signal(signum: int, frame: Any) -> None:
-    if _Guard.received is None:
-        _Guard.received = signum
-        if not _Guard.deferred:
-            raise Interrupted(signum)
-    # a second signal while the report is being made: recorded by the first, ignored
-
-
-@contextlib.contextmanager
-def armed():
-    """Within a :func:`signal_guard`: a stop signal raises :class:`Interrupted` here even when signals are
-    deferred around it (reading and checking data are interruptible); one that came while deferred raises
-    on entry. The deferral state is restored on exit."""
-    prev = _Guard.deferred
-    _Guard.deferred = False
-    try:
-        if _Guard.received is not None and _Guard.depth:
-            raise Interrupted(_Guard.received)
-        yield
-    finally:
-        _Guard.deferred = prev
-
-
-def signals_deferred() -> bool:
-    return _Guard.deferred
-
-
-def defer_signals(on: bool = True) -> None:
-    """While on (until turned off or the outermost :func:`signal_guard` ends), a stop signal is only
-    recorded: grading and writing the reports run to the end; the caller checks :func:`received_signal`."""
-    _Guard.deferred = on
-
-
-def received_signal() -> int | None:
-    """The stop signal that arrived inside the current :func:`signal_guard`, if any."""
-    return _Guard.received
-
-
-@contextlib.contextmanager
-def signal_guard(ignore_after_stop: bool = False):
-    """Turn SIGINT/SIGTERM/SIGHUP into one :class:`Interrupted` for the duration (nestable; main thread
-    only, elsewhere a no-op). The previous handlers are restored when the outermost guard ends -- unless
-    ``ignore_after_stop`` (the command line, about to exit) and a stop signal came: then later ones are
-    ignored, so that a repeated Ctrl-C cannot print a traceback on the way out."""
-    if threading.current_thread() is not threading.main_thread():
-        yield
-        return
-    if _Guard.depth == 0:
-        _Guard.received = None
-        _Guard.deferred = False
-        _Guard.saved = {}
-        for s in STOP_SIGNALS:
-            try:
-                _Guard.saved[s] = signal.signal(s, _on_signal)
-            except (OSError, ValueError):  # pragma: no cover
-                pass
-    _Guard.depth += 1
-    try:
-        yield
-    finally:
-        _Guard.depth -= 1
-        if _Guard.depth == 0:
-            _Guard.deferred = False
-            stopped = ignore_after_stop and _Guard.received is not None
-            for s, h in _Guard.saved.items():
-                try:
-                    signal.signal(s, signal.SIG_IGN if stopped else h if h is not None else signal.SIG_DFL)
-                except (OSError, ValueError):  # pragma: no cover
-                    pass
-            _Guard.saved = {}
 
 
 def stop_pool(pool: Any, grace: float = 0.5) -> None:
@@ -148,6 +47,12 @@ def stop_pool(pool: Any, grace: float = 0.5) -> None:
         if p.is_alive():  # pragma: no cover
             p.kill()
             p.join(1.0)
+
+
+def _init_worker(initializer: Callable[..., None] | None = None, initargs: tuple = ()) -> None:
+    _worker_init()
+    if initializer is not None:
+        initializer(*initargs)
 
 
 def _worker_init() -> None:
@@ -281,29 +186,75 @@ def _run_segment_task(vals: np.ndarray, fmt: Format, checks: list[PlannedCheck],
     return out
 
 
-class Executor:
-    """In-process (workers=1) or a process pool; same results either way."""
+class _Lazy:
+    """The in-process future: the task runs when its result is first asked for (so a stop signal, progress
+    and the order of results behave as with a pool)."""
 
-    def __init__(self, workers: int | None = None):
+    def __init__(self, fn: Callable[..., Any], args: tuple):
+        self._fn, self._args = fn, args
+        self._done = False
+        self._value: Any = None
+
+    def result(self, timeout: float | None = None) -> Any:
+        if not self._done:
+            self._value = self._fn(*self._args)
+            self._done = True
+        return self._value
+
+    def done(self) -> bool:
+        return self._done
+
+    def cancel(self) -> bool:
+        return True
+
+
+class Executor:
+    """Where tasks run: in this process (``workers=1``) or a local process pool; same results either way.
+
+    The one executor protocol (the Dask executor in :mod:`rngassay.battery.cluster` has it too): a context
+    manager with ``workers``, ``parallel``, ``submit(fn, *args)`` returning a future (``result``, ``cancel``),
+    ``submit_segment``/``collect`` for the battery's segments, ``abort()`` and ``describe()``.
+    ``initializer(*initargs)`` runs in every worker process after the stop-signal set-up.
+    """
+
+    def __init__(self, workers: int | None = None, initializer: Callable[..., None] | None = None,
+                 initargs: tuple = ()):
         self.workers = workers or os.cpu_count() or 1
-        self._pool: cf.ProcessPoolExecutor | None = None
+        self._pool: Any = None
+        self._initializer = initializer
+        self._initargs = initargs
+        self.aborted = False
 
     def __enter__(self):
         if self.workers > 1:
             import multiprocessing as mp
 
+            # fork: what the initializer gets reaches the workers without pickling (closures work too)
             ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
-            self._pool = cf.ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx, initializer=_worker_init)
+            self._pool = cf.ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx, initializer=_init_worker,
+                                                initargs=(self._initializer, self._initargs))
         return self
 
     def __exit__(self, *exc):
         if self._pool is not None:
-            if exc[0] is None and not self.aborted:
+            if exc[0] is None and not self.aborted and received_signal() is None:
                 self._pool.shutdown(wait=True, cancel_futures=True)
-            else:
+            else:  # stopped (a signal, an error): workers are ended, never left running
                 self.abort()
+            self._pool = None
 
-    aborted = False
+    @property
+    def parallel(self) -> bool:
+        return self._pool is not None
+
+    def describe(self) -> str:
+        return f"local processes ({self.workers})" if self.workers > 1 else "in-process"
+
+    def submit(self, fn: Callable[..., Any], *args: Any) -> Any:
+        """Run ``fn(*args)`` on a worker; in this process the task runs when its result is asked for."""
+        if self._pool is None:
+            return _Lazy(fn, args)
+        return self._pool.submit(fn, *args)
 
     def abort(self, grace: float = WORKER_GRACE_S) -> None:
         """Stop the pool without waiting for its tasks: queued ones are cancelled, running workers get
@@ -333,10 +284,6 @@ class Executor:
             for j, r in zip(sl, fut.result(left) if left is not None else fut.result()):
                 out[j] = r
         return out
-
-    def run_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck]):
-        """Run checks on one segment and wait for them."""
-        return self.collect(self.submit_segment(vals, fmt, checks))
 
 
 def run_plan(
@@ -452,9 +399,7 @@ def _keep(outcomes: list[Outcome], results: list, j: int) -> None:
 
 
 def _run_fresh(executor: Executor, batch: list[np.ndarray], fmt: Format, checks: list[PlannedCheck], segment: int = 0):
-    if executor._pool is None:
-        return [_run_segment_task(v, fmt, [pc], segment)[0] for v, pc in zip(batch, checks)]
-    futs = [executor._pool.submit(_run_segment_task, v, fmt, [pc], segment) for v, pc in zip(batch, checks)]
+    futs = [executor.submit(_run_segment_task, v, fmt, [pc], segment) for v, pc in zip(batch, checks)]
     return [f.result()[0] for f in futs]
 
 

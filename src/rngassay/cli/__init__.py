@@ -7,13 +7,14 @@ Errors are one line on stderr; never a traceback.
 from __future__ import annotations
 
 import os
+import sys
 
 import click
 
-from .. import __version__
+from .._version import __version__
 from ..errors import InputError
 from . import catalog as _catalog, demo as _demo, fit as _fit, seeds as _seeds, test as _test
-from .common import (EXIT_INTERNAL, EXIT_OK, EXIT_USAGE, Progress, check_workers, finish,  # noqa: F401
+from .common import (EXIT_INTERNAL, EXIT_OK, EXIT_USAGE, Progress, check_workers, finish,  # noqa: F401 (re-exported)
                      input_paths, one_line, stop_signal)
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -36,7 +37,7 @@ _seeds.register_cli(cli)
 
 def main(argv: list[str] | None = None) -> int:
     """Entry point: one line on stderr and exit 2 for bad input or usage, never a traceback."""
-    from ..battery.run import signal_guard
+    from ..signals import signal_guard
 
     try:
         with signal_guard(ignore_after_stop=True):  # a stop signal: reports marked incomplete, exit 128 + signal

@@ -118,7 +118,7 @@ def split(values: tuple[str, ...]) -> list[str] | None:
 
 def finish(report, outputs: list[tuple[str, str]], strict: bool) -> None:
     """Write the reports, print the table and exit: 0 pass (and borderline unless strict), 1 fail or an
-    incomplete run, 130 interrupted. Shared by `test`, `fit` and `seeds`.
+    incomplete run, 128 + the signal when a stop signal ended it. Shared by `test`, `fit` and `seeds`.
     A report that cannot be written still leaves the verdict and the table on standard output (then exit 2)."""
     try:
         write_outputs(report, outputs)
@@ -129,11 +129,11 @@ def finish(report, outputs: list[tuple[str, str]], strict: bool) -> None:
     for what, path in outputs:
         out(f"{what:<12} {path}")
     code = report.exit_code(strict=strict)
-    sig = stop_signal()
+    sig = stop_signal()  # every stop signal of a run is recorded by the guard `main` holds (no note is searched)
     if sig:  # SIGINT, SIGTERM, SIGHUP: 128 + the signal's number (130, 143, 129)
         code = 128 + sig
-    elif report.incomplete:
-        code = 130 if any("interrupted" in n for n in report.notes) else max(code, EXIT_FAIL)
+    elif report.incomplete:  # e.g. a source that died mid-run: never green
+        code = max(code, EXIT_FAIL)
     raise click.exceptions.Exit(code)
 
 
@@ -144,7 +144,7 @@ def text(report) -> str:
 
 
 def stop_signal() -> int | None:
-    from ..battery.run import received_signal
+    from ..signals import received_signal
 
     return received_signal()
 

@@ -8,7 +8,7 @@ import click
 
 from .. import api
 from ..errors import InputError
-from ..fitting import DEFAULT_PIT_SEED
+from ..battery.conformance import DEFAULT_PIT_SEED
 from .common import Progress, check_outputs, check_source_given, check_workers, finish, input_paths, report_options, split
 
 

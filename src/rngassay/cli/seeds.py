@@ -107,7 +107,7 @@ def register_cli(group: click.Group) -> click.Command:
           duplicates and overlaps   identical or shifted streams across seeds
           early bytes         each early output byte's distribution across seeds
         """
-        from ..battery.run import defer_signals
+        from ..signals import defer_signals
         from ..errors import InputError
         from ..seeds.sweep import sweep_seeds
 

@@ -29,7 +29,7 @@ from .common import (EXIT_OK, Progress, check_outputs, check_source_given, check
 def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, budget, checks, skip, alpha,
              workers, no_retest, plan_only, cluster, json_path, html_path, junit_path, strict, quiet) -> None:
     """Assay a stream: read it, run the checks, grade, report; exit 0 pass, 1 fail, 2 bad input."""
-    from ..battery.run import defer_signals
+    from ..signals import defer_signals
 
     defer_signals()  # a stop signal while starting up is kept for the run, which then ends in a report
     from .. import api

@@ -74,18 +74,6 @@ class Format:
     def is_float(self) -> bool:
         return self.kind in ("floats", "text-floats")
 
-    @property
-    def bits_per_value(self) -> int:
-        """Resolution of one value in bits (words: their width; floats: mantissa + 1)."""
-        if self.kind in ("bytes", "words"):
-            return self.itemsize * 8
-        if self.name == "<f4":
-            return 24
-        if self.kind in ("floats", "text-floats"):
-            return 53
-        assert self.lo is not None and self.hi is not None
-        return max(1, int(self.hi - self.lo).bit_length())
-
     def describe(self) -> str:
         if self.kind == "text-integers":
             return f"text integers {self.lo}..{self.hi}"

@@ -15,19 +15,9 @@ from scipy import special
 from scipy import stats as sps
 
 from .. import stats
+from ..stats import bonferroni, sidak
 
 MIN_EXPECTED = 5.0  # chi-square cells need at least this many expected counts (common practice)
-
-
-def sidak(p_min: float, m: int) -> float:
-    """P(min of m independent uniforms <= p_min) = 1 - (1 - p_min)^m, computed without cancellation."""
-    if m <= 0 or p_min >= 1.0:
-        return 1.0
-    return stats.clip_p(-math.expm1(m * math.log1p(-p_min)))
-
-
-def bonferroni(ps: list[float]) -> float:
-    return stats.clip_p(min(1.0, len(ps) * min(ps))) if ps else 1.0
 
 
 def _binom_two_sided(k: np.ndarray, n: np.ndarray, p: float) -> np.ndarray:

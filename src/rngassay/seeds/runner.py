@@ -6,12 +6,11 @@ runner runs it; the sweep collects them in task order.
 
 from __future__ import annotations
 
-import concurrent.futures as cf
 import os
 from dataclasses import dataclass
 from typing import Any, Callable
 
-from ..battery.run import Executor, _worker_init
+from ..battery.run import Executor
 from ..errors import InputError
 from .factory import SeedFactory
 
@@ -19,7 +18,7 @@ _FACTORY: SeedFactory | None = None  # the factory of this worker process (local
 
 
 def _install(factory: SeedFactory) -> None:
-    _worker_init()  # stop signals are the main process's; a SIGTERM from it still ends this worker
+    """Worker start-up (after the executor's stop-signal set-up): keep the factory for the tasks."""
     global _FACTORY
     _FACTORY = factory
 
@@ -47,26 +46,13 @@ def task_entry(factory: SeedFactory | None, fn: Callable[..., Any], *args: Any) 
         return TaskFailure(e.what, e.where, e.hint)
 
 
-class _Lazy:
-    """An in-process 'future': the task runs when its result is first asked for."""
-
-    def __init__(self, fn: Callable[..., Any], args: tuple):
-        self._fn, self._args = fn, args
-        self._done = False
-        self._value: Any = None
-
-    def result(self, timeout: float | None = None) -> Any:
-        if not self._done:
-            self._value = self._fn(*self._args)
-            self._done = True
-        return self._value
-
-    def cancel(self) -> bool:
-        return True
-
-
 class SweepRunner:
-    """``workers`` local processes (1: in this process), or a Dask cluster (``cluster`` address or ``client``)."""
+    """``workers`` local processes (1: in this process), or a Dask cluster (``cluster`` address or ``client``).
+
+    A thin layer over the one executor protocol (:class:`rngassay.battery.run.Executor`, or the Dask
+    executor): the local pool's workers get the factory once, at start (fork: no pickling), so tasks carry
+    only their seeds; in this process and on Dask the factory travels with each task.
+    """
 
     def __init__(self, factory: SeedFactory, workers: int | None = 1, cluster: str | None = None,
                  client: Any = None):
@@ -77,54 +63,41 @@ class SweepRunner:
         self.cluster = cluster
         self.client = client
         self.mode = "dask" if (cluster is not None or client is not None) else ("local" if self.workers > 1 else "serial")
-        self._pool: cf.ProcessPoolExecutor | None = None
-        self._dask: Any = None
-        self.battery_executor: Executor | None = None
+        self.executor: Executor | None = None
+
+    @property
+    def battery_executor(self) -> Executor | None:
+        """The same executor runs the battery on merged streams (the same processes or cluster)."""
+        return self.executor
 
     def __enter__(self) -> "SweepRunner":
         if self.mode == "dask":
             from ..battery.cluster import DaskExecutor
 
-            self._dask = DaskExecutor(self.cluster, client=self.client).__enter__()
-            self.battery_executor = self._dask
+            self.executor = DaskExecutor(self.cluster, client=self.client).__enter__()
         elif self.mode == "local":
-            import multiprocessing as mp
-
-            ctx = mp.get_context("fork") if hasattr(os, "fork") else mp.get_context()
-            # fork: the factory reaches the workers without pickling (lambdas and closures work too)
-            self._pool = cf.ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx, initializer=_install,
-                                                initargs=(self.factory,))
-            ex = Executor(self.workers)
-            ex._pool = self._pool  # the battery on merged streams shares the same processes
-            self.battery_executor = ex
+            self.executor = Executor(self.workers, initializer=_install, initargs=(self.factory,)).__enter__()
         else:
-            self.battery_executor = Executor(1)
+            self.executor = Executor(1).__enter__()
         return self
 
     def __exit__(self, *exc: Any) -> None:
-        if self._pool is not None:
-            from ..battery.run import received_signal, stop_pool
-
-            if exc[0] is None and received_signal() is None:
-                self._pool.shutdown(wait=True, cancel_futures=True)
-            else:  # stopped (a signal, an error): workers are ended, never left running
-                stop_pool(self._pool)
-            self._pool = None
-        if self._dask is not None:
-            self._dask.__exit__(*exc)
-            self._dask = None
+        if self.executor is not None:
+            self.executor.__exit__(*exc)
+            self.executor = None
 
     def describe(self) -> str:
-        if self.mode == "dask":
-            return self._dask.describe() if self._dask is not None else f"dask {self.cluster}"
-        if self.mode == "local":
-            return f"local processes ({self.workers})"
-        return "in-process"
+        if self.executor is not None:
+            return self.executor.describe()
+        return f"dask {self.cluster}" if self.mode == "dask" else ("in-process" if self.mode == "serial" else
+                                                                  f"local processes ({self.workers})")
+
+    @property
+    def workers_used(self) -> int | None:
+        return self.executor.workers if self.executor is not None else None
 
     def submit(self, fn: Callable[..., Any], *args: Any) -> Any:
-        if self.mode == "serial":
-            return _Lazy(task_entry, (self.factory, fn) + args)
+        assert self.executor is not None, "SweepRunner used outside its `with` block"
         if self.mode == "local":
-            assert self._pool is not None
-            return self._pool.submit(task_entry, None, fn, *args)
-        return self._dask._pool.submit(task_entry, self.factory, fn, *args)
+            return self.executor.submit(task_entry, None, fn, *args)
+        return self.executor.submit(task_entry, self.factory, fn, *args)

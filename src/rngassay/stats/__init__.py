@@ -17,7 +17,8 @@ from .chisq import (
 )
 from .combine import CAUCHY_P_MAX, cauchy_combination, harmonic_mean, harmonic_mean_p
 from .ks import KS_EXACT_MAX_N, ks_cdf, ks_pvalue, ks_statistic, ks_uniform
-from .multiple import benjamini_hochberg, benjamini_hochberg_adjusted, holm, holm_adjusted
+from .multiple import (benjamini_hochberg, benjamini_hochberg_adjusted, bonferroni, holm, holm_adjusted, sidak,
+                       sidak_log, sidak_min)
 from .secondlevel import pool_binomial, pool_chisquare, pool_poisson, proportion_below, uniformity_of_pvalues
 from .tails import (
     P_FLOOR,
@@ -27,6 +28,7 @@ from .tails import (
     clip_p,
     clip_p_array,
     discrete_two_sided,
+    two_sided,
     log10_p,
     normal_log10_sf,
     normal_tails,
@@ -35,6 +37,7 @@ from .tails import (
 )
 
 __all__ = [
+    "bonferroni", "sidak", "sidak_log", "sidak_min", "two_sided",
     "P_FLOOR", "clip_p", "clip_p_array", "log10_p",
     "chi2_tails", "chi2_log10_sf", "normal_tails", "normal_two_sided", "normal_log10_sf",
     "poisson_tails", "binomial_tails", "discrete_two_sided",

@@ -2,6 +2,10 @@
 
 * Holm (1979), "A simple sequentially rejective multiple test procedure", Scand. J. Statist.
   6:65–70: controls the family-wise error rate at ``alpha`` under any dependence.
+* Šidák (1967), "Rectangular confidence regions for the means of multivariate normal distributions",
+  J. Amer. Statist. Assoc. 62:626–633: the smallest of m independent p-values, ``1 - (1 - p_min)^m``.
+* Bonferroni's inequality: ``min(1, m p_min)`` for the smallest of m p-values under any dependence
+  (common practice).
 * Benjamini & Hochberg (1995), "Controlling the false discovery rate", J. R. Statist. Soc. B
   57:289–300: controls the false discovery rate at ``q`` for independent (or positively
   regression dependent) p-values.
@@ -14,9 +18,50 @@ NaN raises :class:`ValueError`; an empty input gives an empty output.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
-__all__ = ["holm", "holm_adjusted", "benjamini_hochberg", "benjamini_hochberg_adjusted"]
+from .tails import clip_p
+
+__all__ = ["holm", "holm_adjusted", "benjamini_hochberg", "benjamini_hochberg_adjusted", "sidak", "sidak_min",
+           "sidak_log", "bonferroni"]
+
+
+def sidak(p_min: float, m: int) -> float:
+    """P(min of m independent uniforms <= p_min) = 1 - (1 - p_min)^m, computed without cancellation."""
+    if m <= 0 or p_min >= 1.0:
+        return 1.0
+    return clip_p(-math.expm1(m * math.log1p(-p_min)))
+
+
+def sidak_min(ps) -> float:
+    """:func:`sidak` of the smallest of ``ps`` (1.0 for none)."""
+    ps = list(ps)
+    return sidak(min(ps), len(ps)) if ps else 1.0
+
+
+def sidak_log(log_q: float, K: int) -> tuple[float, float]:
+    """Šidák correction of the smallest of K independent tail probabilities, given ``ln q_min``.
+
+    Returns ``(p, log10 p)`` with ``p = 1 - (1 - q)^K`` computed without cancellation; when ``q``
+    underflows, ``log10 p = log10 K + log10 q`` (first order, exact in the limit)."""
+    if log_q >= 0.0:
+        return 1.0, 0.0
+    if log_q < -700.0:
+        lg = (math.log(K) + log_q) / math.log(10.0)
+        return clip_p(10.0**lg), lg
+    q = math.exp(log_q)
+    p = -math.expm1(K * math.log1p(-q))
+    if p <= 0.0:
+        return clip_p(0.0), (math.log(K) + log_q) / math.log(10.0)
+    return clip_p(p), math.log10(p)
+
+
+def bonferroni(ps) -> float:
+    """``min(1, m p_min)`` for the smallest of m p-values (1.0 for none)."""
+    ps = list(ps)
+    return clip_p(min(1.0, len(ps) * min(ps))) if ps else 1.0
 
 
 def _pvals(pvals) -> np.ndarray:

@@ -39,6 +39,7 @@ __all__ = [
     "poisson_tails",
     "binomial_tails",
     "discrete_two_sided",
+    "two_sided",
 ]
 
 #: Smallest p-value ever returned: the smallest positive normal double.
@@ -238,6 +239,10 @@ def binomial_tails(k: int, n: int, p: float) -> tuple[float, float]:
     return clip_p(right), clip_p(left)
 
 
-def discrete_two_sided(right: float, left: float) -> float:
-    """Doubled-smaller-tail two-sided p-value ``min(1, 2 min(right, left))`` (common practice)."""
+def two_sided(right: float, left: float) -> float:
+    """The two-sided rule of the whole tool: doubled smaller tail ``min(1, 2 min(right, left))`` (common
+    practice); for a discrete statistic each tail includes the observed value."""
     return clip_p(min(1.0, 2.0 * min(_check_real("right", right), _check_real("left", left))))
+
+
+discrete_two_sided = two_sided  # the name the discrete checks use

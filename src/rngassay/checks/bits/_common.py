@@ -166,32 +166,6 @@ def ctz64(typingctx, x):
     return sig, codegen
 
 
-@njit(cache=True, inline="always")
-def shl(x, k):
-    """x << k for uint64 x, 0 when k >= 64."""
-    if k >= 64:
-        return np.uint64(0)
-    return np.uint64(x) << np.uint64(k)
-
-
-@njit(cache=True, inline="always")
-def shr(x, k):
-    """x >> k for uint64 x, 0 when k >= 64."""
-    if k >= 64:
-        return np.uint64(0)
-    return np.uint64(x) >> np.uint64(k)
-
-
-@njit(cache=True, inline="always")
-def get64(w, pos):
-    """The 64 bits of the MSB-first sequence starting at bit ``pos``, as an MSB-first word."""
-    i = pos >> 6
-    sh = pos & 63
-    if sh == 0:
-        return w[i]
-    return (w[i] << np.uint64(sh)) | (w[i + 1] >> np.uint64(64 - sh))
-
-
 @njit(cache=True)
 def range_ones(w, a, b):
     """Number of ones at positions [a, b) of an MSB-first word array."""

@@ -41,7 +41,9 @@ from rngassay.checks.result import CheckResult
 
 from ._common import lanes_u64
 from .complexity import _bm_blocks as bm_long_blocks  # the one Berlekamp-Massey kernel
-from .lanes_spectral import LaneParameterError, as_int, check_lane_bits, check_log2_block, sidak_log, words32
+from rngassay.stats import sidak_log
+
+from .lanes_spectral import LaneParameterError, as_int, check_lane_bits, check_log2_block, words32
 
 LC_LOG2_BLOCK_MIN, LC_LOG2_BLOCK_MAX = 4, 20
 LC_LONG_LOG2_BLOCK = 18  # planner: 2^18-bit blocks (random L ~ 2^17)

@@ -51,6 +51,8 @@ from rngassay.checks.registry import CheckSpec, check_id, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
 
+from rngassay.stats import sidak_log
+
 from ._common import clip_p
 
 SP800_22 = "NIST SP 800-22 Rev. 1a (2010)"
@@ -101,23 +103,6 @@ def check_log2_block(log2_block: int, what: str, lo: int, hi: int) -> int:
     if k is None or not lo <= k <= hi:
         raise LaneParameterError(f"{what}: log2_block must be an integer in {lo}..{hi}, got {log2_block!r}")
     return k
-
-
-def sidak_log(log_q: float, K: int) -> tuple[float, float]:
-    """Šidák correction of the smallest of K independent tail probabilities, given ``ln q_min``.
-
-    Returns ``(p, log10 p)`` with ``p = 1 - (1 - q)^K`` computed without cancellation; when ``q``
-    underflows, ``log10 p = log10 K + log10 q`` (first order, exact in the limit)."""
-    if log_q >= 0.0:
-        return 1.0, 0.0
-    if log_q < -700.0:
-        lg = (math.log(K) + log_q) / math.log(10.0)
-        return clip_p(10.0**lg), lg
-    q = math.exp(log_q)
-    p = -math.expm1(K * math.log1p(-q))
-    if p <= 0.0:
-        return clip_p(0.0), (math.log(K) + log_q) / math.log(10.0)
-    return clip_p(p), math.log10(p)
 
 
 @njit(cache=True)
