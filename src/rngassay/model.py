@@ -61,6 +61,24 @@ class CheckReport:
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
 
+    @classmethod
+    def row(cls, id: str, key: str, family: str, params: dict[str, Any], view: str, kind: str, *,
+            statistic: float | None, p_value: float, nbytes: int, replicates: int,
+            second_level: dict[str, Any] | None = None, round_second_level: dict[str, Any] | None = None,
+            replicate_p: list[float] | None = None, null: str = "", title: str = "", error: str | None = None,
+            seconds: float = 0.0) -> "CheckReport":
+        """The one way a check's result becomes a report row (battery, seeds and fit alike): one round of
+        ``replicates`` on ``nbytes`` bytes, ungraded ("pass", no adjusted p) until the run is graded; a row
+        with an ``error`` has no round and fails."""
+        sl = dict(second_level or {})
+        rounds = [] if error else [Round(replicates=int(replicates), bytes=int(nbytes), p_value=float(p_value),
+                                         replicate_p=list(replicate_p or []), statistic=statistic,
+                                         second_level=sl if round_second_level is None else round_second_level)]
+        return cls(id=id, key=key, family=family, params=dict(params), view=view, kind=kind,
+                   statistic=None if statistic is None else float(statistic), p_value=float(p_value),
+                   grade="fail" if error else "pass", bytes=int(nbytes), replicates=int(replicates), adjusted_p=None,
+                   second_level=sl, rounds=rounds, null=null, title=title, error=error, seconds=round(seconds, 4))
+
 
 @dataclass
 class Report:

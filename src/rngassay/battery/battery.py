@@ -158,19 +158,17 @@ def _check_report(o: Outcome, r: G.RoundResult, g: str, a: float, registry) -> C
     sl = dict(r.second_level)
     if o.errors:
         sl["errors"] = o.errors[:5]
-    return CheckReport(
-        id=o.check.id, key=o.check.key, family=o.check.family, params=o.check.params, view=o.check.view,
-        kind=spec.kind, statistic=r.statistic, p_value=r.p_value, grade=g, bytes=o.bytes,
-        replicates=r.replicates, adjusted_p=a, second_level=sl, rounds=[_round(r, o)], null=r.null,
-        title=spec.title, seconds=round(o.seconds, 4),
-    )
+    c = CheckReport.row(o.check.id, o.check.key, o.check.family, o.check.params, o.check.view, spec.kind,
+                        statistic=r.statistic, p_value=r.p_value, nbytes=o.bytes, replicates=r.replicates,
+                        second_level=sl, round_second_level=r.second_level, replicate_p=r.replicate_p, null=r.null,
+                        title=spec.title, seconds=o.seconds)
+    c.grade, c.adjusted_p = g, a
+    return c
 
 
 def _error_report(o: Outcome, registry) -> CheckReport:
     spec = registry[o.check.key]
-    return CheckReport(
-        id=o.check.id, key=o.check.key, family=o.check.family, params=o.check.params, view=o.check.view,
-        kind=spec.kind, statistic=None, p_value=1.0, grade="fail", bytes=o.bytes, replicates=0,
-        adjusted_p=None, second_level={"errors": o.errors[:5]}, rounds=[], null="", title=spec.title,
-        error=o.errors[0] if o.errors else "did not run",
-    )
+    return CheckReport.row(o.check.id, o.check.key, o.check.family, o.check.params, o.check.view, spec.kind,
+                           statistic=None, p_value=1.0, nbytes=o.bytes, replicates=0,
+                           second_level={"errors": o.errors[:5]}, title=spec.title,
+                           error=o.errors[0] if o.errors else "did not run")

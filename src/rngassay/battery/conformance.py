@@ -43,11 +43,12 @@ from ..checks.transform.conformance import (FIT_TAIL_LEVELS, FitCheck, anderson_
                                             tail_count_check, tail_log_areas)
 from ..checks.transform.declared import (Declaration, categories_for, discrete_validator, parse_dist_spec,
                                          read_odds)
+from ..checks.registry import matches
 from ..errors import InputError
 from ..intake.memory import stream_from_array
 from ..intake.variates import Variates, read_variates, variates_from_array
 from ..intake.views import decimal_grid
-from ..model import CAUTIONS, CheckReport, Report, Round
+from ..model import CAUTIONS, CheckReport, Report
 from .grade import BORDERLINE_FACTOR, graded_report
 
 #: Default seed of the randomised PIT (discrete declarations, and continuous values on a decimal grid).
@@ -239,12 +240,9 @@ def _fit_report(fc: FitCheck, nbytes: int) -> CheckReport:
     sl = {"method": "one sample (no replicates)", "p_right": r.p_value, "p_left": r.p_left,
           "details": _jsonable(r.details)}
     stat = r.statistic if math.isfinite(r.statistic) else None
-    return CheckReport(
-        id=fc.id, key=fc.key, family="fit", params=dict(fc.params), view="variates", kind=r.kind,
-        statistic=stat, p_value=p, grade="pass", bytes=nbytes, replicates=1, adjusted_p=None, second_level=sl,
-        rounds=[Round(replicates=1, bytes=nbytes, p_value=p, replicate_p=[p], statistic=stat, second_level={})],
-        null=r.null, title=fc.title,
-    )
+    return CheckReport.row(fc.id, fc.key, "fit", fc.params, "variates", r.kind, statistic=stat, p_value=p,
+                           nbytes=nbytes, replicates=1, second_level=sl, round_second_level={}, replicate_p=[p],
+                           null=r.null, title=fc.title)
 
 
 def _jsonable(d: dict[str, Any]) -> dict[str, Any]:
@@ -299,11 +297,7 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
 
 
 def _matches(key: str, cid: str, family: str, patterns: list[str]) -> bool:
-    for p in patterns:
-        p = p.strip().lower()
-        if p and (p in (family, key) or cid.lower() == p or cid.lower().startswith(p + " ")):
-            return True
-    return False
+    return matches(key, family, cid, patterns)
 
 
 def _battery_patterns(patterns: list[str] | None) -> list[str] | None:

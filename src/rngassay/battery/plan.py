@@ -23,7 +23,7 @@ import math
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from ..checks.registry import CheckSpec, check_id
+from ..checks.registry import CheckSpec, check_id, matches
 from ..checks.catalog import load_all
 from ..errors import InputError
 from ..intake import views
@@ -34,7 +34,7 @@ SEGMENT_UNIT = 2 << 20
 SIZE_KEYS = ("n", "n_bits", "n_values", "n_words")  # parameters that only say how much data is used
 # Above this many bytes per check (all replicates together), a check sees only the first
 # CHECK_CAP_BYTES / R bytes of each segment -- unless its registry entry says it is cheap
-# (extra={"cheap": True}: one fast counting pass). This keeps a large budget's cost near a
+# (``CheckSpec.cheap``: one fast counting pass). This keeps a large budget's cost near a
 # fixed multiple of one read pass while the cheap checks still use every byte.
 CHECK_CAP_BYTES = 64 << 20
 MIN_BUDGET_BYTES = 64 << 10  # below this the checks have too little data to say anything useful
@@ -103,13 +103,7 @@ def segments_for(budget_bytes: int) -> int:
 
 
 def _matches(spec: CheckSpec, cid: str, patterns: list[str]) -> bool:
-    for p in patterns:
-        p = p.strip().lower()
-        if not p:
-            continue
-        if p in (spec.family, spec.key) or cid.lower() == p or cid.lower().startswith(p + " "):
-            return True
-    return False
+    return matches(spec.key, spec.family, cid, patterns)
 
 
 def make_plan(
@@ -163,15 +157,15 @@ def make_plan(
             continue
         if fmt.kind == "text-integers" and spec.family != "categorical":
             continue
-        if spec.extra.get("judges_grid") and fmt.kind != "floats":
+        if spec.judges_grid and fmt.kind != "floats":
             continue  # only float formats claim a grid of their own (words and bytes are made uniform exactly)
-        if fmt.kind == "text-floats" and spec.extra.get("resolution_param"):
+        if fmt.kind == "text-floats" and spec.resolution_param:
             # printed decimals have a grid of their own (e.g. 1e-6) that the format does not declare
             plan.skipped.append(f"{key}: text floats are rounded to their printed digits, so their grid is unknown")
             continue
         per_value = views.input_bytes_per_value(fmt, spec.view)
         seg_for_check = seg
-        if fmt.is_binary and not spec.extra.get("cheap") and seg * R > CHECK_CAP_BYTES:
+        if fmt.is_binary and not spec.cheap and seg * R > CHECK_CAP_BYTES:
             seg_for_check = max(1, CHECK_CAP_BYTES // R)
         n_avail = int(seg_for_check / per_value)
         if spec.view == "integers" and fmt.kind in ("bytes", "words"):
@@ -187,11 +181,11 @@ def make_plan(
         wins = [w for w in spec.windows if windows and w in views.available_windows(fmt, spec.view)]
         param_sets = [p for p in param_sets] + [{**p, "window": w} for w in wins for p in param_sets]
         for params in param_sets:
-            rp = spec.extra.get("resolution_param")
+            rp = spec.resolution_param
             if rp and spec.view == "uniforms":
                 # the grid check judges the grid the input claims; the other resolution-aware checks the grid
                 # the values were found on (when read whole), so that a coarse grid fails once, not in each
-                bits = views.claimed_bits(fmt) if spec.extra.get("judges_grid") else views.float_bits(fmt)
+                bits = views.claimed_bits(fmt) if spec.judges_grid else views.float_bits(fmt)
                 params = {**params, rp: bits}
             cid = display_id(key, params)
             if checks and not _matches(spec, cid, checks):
@@ -205,7 +199,7 @@ def make_plan(
             nbytes = int(math.ceil(need * per_value))
             if fmt.is_binary:
                 nbytes += (-nbytes) % max(8, fmt.itemsize)
-            reps = max(1, min(R, int(spec.extra.get("max_replicates", R))))  # costly checks: fewer replicates
+            reps = max(1, min(R, int(spec.max_replicates or R)))  # costly checks: fewer replicates
             plan.checks.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, reps))
             selected_any = True
     if strict_selectors:

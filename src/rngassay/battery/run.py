@@ -94,24 +94,7 @@ class ViewCache:
             lk = view if window is None else f"{view}~{window}"
             if lk in self.limits:
                 v = v[: self.limits[lk]]
-            if window is not None:
-                out = views.as_window(v, f, view, window)
-            elif view == "uniforms" and f.kind == "text-floats" and f.decimals is not None:
-                out = views.dithered_uniforms(v, f.decimals, self.segment)
-            elif view == "bytes":
-                out = views.as_bytes(v, f)
-            elif view == "words32":
-                out = views.as_words32(v, f)
-            elif view == "words64":
-                out = views.as_words64(v, f)
-            elif view == "bits":
-                out = views.as_bits(v, f)
-            elif view == "uniforms":
-                out = views.as_uniforms(v, f)
-            elif view == "integers":
-                out = views.as_integers(v, f, k if f.kind != "text-integers" else None)
-            else:
-                raise ValueError(f"unknown view {view!r}")
+            out = views.make_view(v, f, view, k, window, self.segment)
             self._cache[key] = out
         return self._cache[key]
 

@@ -17,12 +17,13 @@ Views (defined in ``rngassay.intake.views``):
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any, Callable
 
+from ..intake.views import VIEW_NAMES
 from .result import StatKind
 
-VIEWS = ("bytes", "words32", "words64", "bits", "uniforms", "integers")
+VIEWS = VIEW_NAMES  # the views intake makes (rngassay.intake.views.VIEW_TABLE)
 FAMILIES = ("classic", "bits", "transform", "categorical")
 
 
@@ -45,6 +46,7 @@ class CheckSpec:
     pool          -- optional: pool(list of the replicates' ``pooled`` dicts) -> CheckResult, the check's own
                      test on the pooled sufficient statistics (when a plain chi-square on summed counts is not
                      its statistic, e.g. Good's first difference); see ``battery.grade.pool_sufficient``
+    windows, cheap, max_replicates, resolution_param, judges_grid -- how the plan runs it (see the fields)
     """
 
     key: str
@@ -58,9 +60,12 @@ class CheckSpec:
     both_tails: bool = False
     source: str = ""
     notes: str = ""
-    extra: dict[str, Any] = field(default_factory=dict)
     pool: Callable[[list[dict]], Any] | None = None
-    windows: tuple[str, ...] = ()  # other bits of the same values the check also runs on (intake.views.WINDOWS)  # re-test from the replicates' summed ``pooled`` tables
+    windows: tuple[str, ...] = ()  # other bits of the same values the check also runs on (intake.views.WINDOWS)
+    cheap: bool = False  # one fast counting pass: sees every byte of a large budget (no cap)
+    max_replicates: int | None = None  # costly per byte: at most this many replicates
+    resolution_param: str | None = None  # the parameter the plan sets to the values' resolution in bits
+    judges_grid: bool = False  # judges the float grid itself: runs on float formats only, against the claimed bits
 
 
 REGISTRY: dict[str, CheckSpec] = {}
@@ -75,6 +80,24 @@ def register(spec: CheckSpec) -> CheckSpec:
         raise ValueError(f"check {spec.key!r} registered twice")
     REGISTRY[spec.key] = spec
     return spec
+
+
+def matches(key: str, family: str, cid: str, patterns: list[str]) -> bool:
+    """The one selector rule (``--checks``/``--skip`` of every command): a pattern names a check by its key,
+    its family, its full identifier, or the identifier's first words (``gap a=0`` matches ``gap a=0 b=0.5 t=12``).
+    Case does not matter; empty patterns match nothing."""
+    for p in patterns:
+        p = p.strip().lower()
+        if p and (p in (family, key) or cid.lower() == p or cid.lower().startswith(p + " ")):
+            return True
+    return False
+
+
+def selected(key: str, family: str, cid: str, checks: list[str] | None, skip: list[str] | None) -> bool:
+    """Whether a check runs under ``checks`` (None: all) and ``skip`` (None: none), by :func:`matches`."""
+    if checks and not matches(key, family, cid, checks):
+        return False
+    return not (skip and matches(key, family, cid, skip))
 
 
 def check_id(key: str, params: dict) -> str:

@@ -331,3 +331,31 @@ def as_integers(vals: np.ndarray, fmt: Format, k: int | None = None) -> tuple[np
     limit = (2**32 // k) * k
     w = w[w < limit] if limit < 2**32 else w
     return (w % np.uint32(k)).astype(np.int64), k
+
+
+#: The one view table (plan, run and seeds read it): view name -> function(values, format) -> the view.
+#: ``integers`` takes the range ``k`` too (see :func:`make_view`).
+VIEW_TABLE = {
+    "bytes": as_bytes,
+    "words32": as_words32,
+    "words64": as_words64,
+    "bits": as_bits,
+    "uniforms": as_uniforms,
+    "integers": as_integers,
+}
+assert tuple(VIEW_TABLE) == VIEW_NAMES
+
+
+def make_view(vals: np.ndarray, fmt: Format, view: str, k: int | None = None, window: str | None = None,
+              segment: int = 0):
+    """One view of a segment's values: a window of other bits (:data:`WINDOWS`), the dithered uniforms of text
+    floats (dither seeded by the segment's index), or the plain view of :data:`VIEW_TABLE`."""
+    if window is not None:
+        return as_window(vals, fmt, view, window)
+    if view == "uniforms" and fmt.kind == "text-floats" and fmt.decimals is not None:
+        return dithered_uniforms(vals, fmt.decimals, segment)
+    if view == "integers":
+        return as_integers(vals, fmt, k if fmt.kind != "text-integers" else None)
+    if view not in VIEW_TABLE:
+        raise ValueError(f"unknown view {view!r}")
+    return VIEW_TABLE[view](vals, fmt)

@@ -15,7 +15,7 @@ import numpy as np
 from ..battery import grade as G
 from ..battery.run import Outcome
 from ..checks.catalog import load_all
-from ..model import CheckReport, Round
+from ..model import CheckReport
 from . import measures as M
 from .defaults import AVALANCHE_BYTES
 from .plan import SweepPlan, SweepTasks, _Block
@@ -185,11 +185,6 @@ def _plan_row(rid: str, key: str, params: dict, view: str, nbytes: int, reps: in
 def _row(rid: str, key: str, params: dict, view: str, kind: str, statistic: float | None, p: float, nbytes: int,
          reps: int, second_level: dict, null: str, title: str, error: str | None = None,
          replicate_p: list[float] | None = None, seconds: float = 0.0) -> CheckReport:
-    rnd = [] if error else [Round(replicates=reps, bytes=int(nbytes), p_value=float(p),
-                                  replicate_p=list(replicate_p or []), statistic=statistic,
-                                  second_level=second_level)]
-    return CheckReport(id=rid, key=key, family=FAMILY, params=dict(params), view=view, kind=kind,
-                       statistic=None if statistic is None else float(statistic), p_value=float(p),
-                       grade="fail" if error else "pass", bytes=int(nbytes), replicates=int(reps), adjusted_p=None,
-                       second_level=second_level, rounds=rnd, null=null, title=title, error=error,
-                       seconds=round(seconds, 4))
+    return CheckReport.row(rid, key, FAMILY, params, view, kind, statistic=statistic, p_value=p, nbytes=nbytes,
+                           replicates=reps, second_level=second_level, replicate_p=replicate_p, null=null, title=title,
+                           error=error, seconds=seconds)

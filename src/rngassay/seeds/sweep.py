@@ -46,6 +46,7 @@ from ..battery import grade as G
 from ..battery.plan import PlannedCheck, make_plan
 from ..battery.run import ViewCache, call_check, run_plan
 from ..checks.catalog import load_all
+from ..checks.registry import selected
 from ..errors import InputError
 from ..intake.formats import parse_format
 from ..intake.memory import BytesSource
@@ -143,16 +144,7 @@ def _avalanche_task(factory: SeedFactory, a: np.ndarray, b: np.ndarray, nbytes: 
 
 
 def _row_selected(key: str, rid: str, checks: list[str] | None, skip: list[str] | None) -> bool:
-    def match(pats: list[str]) -> bool:
-        for p in pats:
-            p = p.strip().lower()
-            if p and (p in (key, FAMILY) or rid.lower() == p or rid.lower().startswith(p + " ")):
-                return True
-        return False
-
-    if checks and not match(checks):
-        return False
-    return not (skip and match(skip))
+    return selected(key, FAMILY, rid, checks, skip)
 
 
 def _spacing(B: int) -> int:

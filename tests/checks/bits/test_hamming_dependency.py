@@ -508,7 +508,7 @@ def test_registry_entry_and_default_parameters():
     spec = load_all()[KEY]
     assert spec.family == "bits" and spec.view == "words64" and spec.kind == "continuous"
     assert spec.pool is pool_tables
-    assert not spec.extra.get("cheap") and "Blackman" in spec.source
+    assert not spec.cheap and "Blackman" in spec.source
     full = spec.default_params(262_144)  # one 2 MiB segment
     assert [(p["k"], p["w"], p["band"]) for p in full] == [
         (2, 64, 3), (3, 64, 3), (4, 64, 3), (2, 32, 2), (3, 32, 2), (4, 32, 2)]

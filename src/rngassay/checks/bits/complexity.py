@@ -284,7 +284,7 @@ register(CheckSpec(
     key="linear complexity", family="bits", title="linear complexity test", view="bits",
     kind="continuous", func=linear_complexity, values_needed=lambda p: int(p["n_bits"]),
     default_params=_lc_defaults, source=f"Massey (1969); {SP800_22} §2.10", pool=pool_class_counts,
-    extra={"max_replicates": 4},  # about 0.15 s per replicate: 4 replicates are plenty
+    max_replicates=4,  # about 0.15 s per replicate: 4 replicates are plenty
 ))
 
 LANE_LC_M = 50_000
@@ -305,7 +305,7 @@ register(CheckSpec(
     func=linear_complexity_lanes, values_needed=lambda p: int(p["n_words"]),
     default_params=_lc_lane_defaults, source=f"{SP800_22} §2.10 applied to bit lanes",
     pool=pool_class_counts,  # one table per replicate (all lanes' blocks); per-lane minima not pooled
-    extra={"max_replicates": 2},  # about 3 s per replicate
+    max_replicates=2,  # about 3 s per replicate
 ))
 
 
@@ -355,5 +355,5 @@ register(CheckSpec(
     title="smallest linear complexity over the bit lanes of 32-bit words", view="words32", kind="discrete",
     func=linear_complexity_lanes_minimum, values_needed=lambda p: int(p["n_words"]),
     default_params=_lc_lane_min_defaults, source=f"{SP800_22} §2.10 and §3.10 (exact law of L), per bit lane",
-    extra={"max_replicates": 2},  # about 0.4 s per replicate; one low block is already decisive
+    max_replicates=2,  # about 0.4 s per replicate; one low block is already decisive
 ))

@@ -125,12 +125,12 @@ register(CheckSpec(
     key="random excursions", family="bits", title="random excursions test", view="bits",
     kind="continuous", func=random_excursions, values_needed=lambda p: int(p["n_bits"]),
     default_params=lambda n: [{"n_bits": n}] if n >= 1_000_000 else [],
-    source=f"{SP800_22} §2.14", notes=_NOTE, extra={"returns": "list"},
+    source=f"{SP800_22} §2.14", notes=_NOTE,
 ))
 
 register(CheckSpec(
     key="random excursions variant", family="bits", title="random excursions variant test", view="bits",
     kind="continuous", func=random_excursions_variant, values_needed=lambda p: int(p["n_bits"]),
     default_params=lambda n: [{"n_bits": n}] if n >= 1_000_000 else [],
-    source=f"{SP800_22} §2.15", notes=_NOTE, extra={"returns": "list"},
+    source=f"{SP800_22} §2.15", notes=_NOTE,
 ))

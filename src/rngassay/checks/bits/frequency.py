@@ -308,7 +308,7 @@ register(CheckSpec(
     kind="continuous", func=monobit_frequency, values_needed=_n,
     default_params=lambda n: [{"n_bits": n}] if n >= 100 else [],
     source=f"{SP800_22} §2.1", pool=pool_monobit,
-    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
+    cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))
 
 
@@ -351,5 +351,5 @@ register(CheckSpec(
     kind="continuous", func=poker_symbols, values_needed=_n, default_params=_poker_defaults,
     both_tails=True, source="FIPS 140-2 (2001) §4.9.1 (m = 4); Pearson chi-square on m-bit symbols",
     pool=pool_class_counts,
-    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
+    cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))

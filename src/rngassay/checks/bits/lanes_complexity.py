@@ -127,5 +127,5 @@ register(CheckSpec(
            "NIST SP 800-22 Rev. 1a (2010) §2.10 / §3.10; applied to bit lanes",
     notes="one 2^18-bit block on each of lanes 0..3 per replicate, two replicates; statistic max |L - M/2|, "
           "exact discrete tail",
-    extra={"max_replicates": 2},  # ~0.3 s per replicate (4 x Berlekamp-Massey on 2^18 bits): ~0.6 s per run
+    max_replicates=2,  # ~0.3 s per replicate (4 x Berlekamp-Massey on 2^18 bits): ~0.6 s per run
 ))

@@ -255,5 +255,5 @@ register(CheckSpec(
     notes="two results per replicate: largest periodogram ordinate and largest circular autocorrelation, "
           "each Šidák-combined over 32 lanes; one block of 2^19 bits per lane (2^18 when a segment holds "
           "only 1 MiB); one replicate",
-    extra={"max_replicates": 1},  # 32 lanes x 2^19 bits: ~0.25-0.35 s per replicate (2^18: ~0.1 s)
+    max_replicates=1,  # 32 lanes x 2^19 bits: ~0.25-0.35 s per replicate (2^18: ~0.1 s)
 ))

@@ -195,7 +195,7 @@ register(CheckSpec(
     kind="continuous", func=binary_matrix_rank, values_needed=lambda p: int(p["n_bits"]),
     default_params=_rank_defaults, source=f"{SP800_22} §2.5, §3.5",
     pool=pool_class_counts,
-    extra={"max_replicates": 8},  # costly per byte: 8 replicates are plenty
+    max_replicates=8,  # costly per byte: 8 replicates are plenty
 ))
 
 
@@ -214,5 +214,5 @@ register(CheckSpec(
     func=binary_matrix_rank_lanes, values_needed=lambda p: int(p["n_words"]),
     default_params=_rank_lane_defaults, source=f"{SP800_22} §2.5 applied to bit lanes",
     pool=pool_class_counts,  # one table per replicate (all lanes' matrices); per-lane counts not pooled
-    extra={"max_replicates": 8},  # costly per byte: 8 replicates are plenty
+    max_replicates=8,  # costly per byte: 8 replicates are plenty
 ))

@@ -78,5 +78,5 @@ register(CheckSpec(
     view="bits", kind="continuous", func=spectral_dft, values_needed=lambda p: int(p["n_bits"]),
     default_params=lambda n: [{"n_bits": min(n, SPECTRAL_MAX_BITS)}] if n >= 1000 else [],
     source=f"{SP800_22} §2.6", pool=pool_spectral,
-    extra={"max_replicates": 4},  # costly per byte: 4 replicates are plenty
+    max_replicates=4,  # costly per byte: 4 replicates are plenty
 ))

@@ -172,7 +172,7 @@ register(CheckSpec(
     values_needed=lambda p: int(p["n"]), default_params=lambda n: [{"n": n}] if n >= 10 else [],
     both_tails=True, source=f"{KNUTH} A; exact multinomial test for small counts",
     notes="k from --range; exact multinomial p-value (discrete) when expected < 5 and feasible",
-    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
+    cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))
 
 register(CheckSpec(

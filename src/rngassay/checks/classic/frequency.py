@@ -247,7 +247,7 @@ register(CheckSpec(
     values_needed=lambda p: int(p["n"]), default_params=_equidistribution_defaults, both_tails=True,
     source=f"{KNUTH} A",
     notes="d = 16, and a fine d (power of two, >= 32 expected per bin, <= 65536)",
-    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
+    cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))
 
 register(CheckSpec(
@@ -255,7 +255,7 @@ register(CheckSpec(
     kind="continuous", func=check_byte_frequency, values_needed=lambda p: int(p["n"]),
     default_params=lambda n: [{"n": n}] if n >= 256 * MIN_EXPECTED_DEFAULT else [],
     both_tails=True, source=f"{KNUTH} A (256 cells)",
-    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
+    cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))
 
 register(CheckSpec(
@@ -263,5 +263,5 @@ register(CheckSpec(
     view="bytes", kind="continuous", func=check_u16_frequency, values_needed=lambda p: int(p["n"]),
     default_params=lambda n: [{"n": n - n % 2}] if n // 2 >= 65536 * MIN_EXPECTED_DEFAULT else [],
     both_tails=True, source=f"{KNUTH} A (65536 cells)",
-    extra={"cheap": True},  # one fast counting pass: sees every byte of a large budget
+    cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))

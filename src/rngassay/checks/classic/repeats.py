@@ -273,6 +273,6 @@ register(CheckSpec(
     view="bytes", kind="discrete", func=check_repeats, values_needed=lambda p: int(p["n"]),
     default_params=_defaults, both_tails=False, source=SOURCE,
     notes="p-value is the union bound C(L,2) 2^-8w on a false alarm (conservative); all available bytes",
-    extra={"cheap": True, "max_replicates": 16},  # whole segments even of a large budget (a period must fit
+    cheap=True, max_replicates=16,  # whole segments even of a large budget (a period must fit
     # inside one); 16 of them are plenty to find a recurring stretch
 ))

@@ -144,5 +144,5 @@ register(CheckSpec(
           "transform this equals the uniform test and guards the numerics), poisson(mu=3), "
           "binomial(n=10 p=0.3), geometric(p=0.2) (chi-square on outcome counts, tail pooled); "
           "at most 2^16 uniforms (gamma 2^15, discrete targets 2^17)",
-    extra={"max_replicates": 16},  # scipy's quantile functions are slow (gamma: ~20 MB/s)
+    max_replicates=16,  # scipy's quantile functions are slow (gamma: ~20 MB/s)
 ))

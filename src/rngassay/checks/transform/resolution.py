@@ -72,7 +72,7 @@ register(CheckSpec(
     default_params=lambda n: [{"n": n}] if n >= MIN_VALUES else [], both_tails=True,
     source="Knuth, TAOCP Vol. 2, 3rd ed., §3.3.2 I (expected collisions); Poisson limit",
     notes="resolution inferred from the data: 16 or 32 bits when every value lies on that grid, else 53",
-    extra={"resolution_param": "resolution_bits"},
+    resolution_param='resolution_bits',
 ))
 
 
@@ -128,5 +128,5 @@ register(CheckSpec(
     default_params=lambda n: [{"n": n}] if n >= 64 else [],
     source="exact law: P(n i.i.d. values on the 2^-c grid all lie on the 2^-r grid) = 2^(-n (c - r))",
     notes="one bit short of the claimed grid (52-bit doubles) is named, not failed",
-    extra={"resolution_param": "resolution_bits", "judges_grid": True, "cheap": True}, pool=pool_fraction_grid,
+    resolution_param='resolution_bits', judges_grid=True, cheap=True, pool=pool_fraction_grid,
 ))

@@ -157,7 +157,7 @@ register(CheckSpec(
     source="exact binomial law of a tail count (inverse-CDF method, common practice)",
     notes="normal target, q = 1e-5 and 1e-7 when a replicate expects >= 0.25 values beyond; both sides; "
           "resolution inferred (16, 32 or 53 bits)",
-    extra={"resolution_param": "resolution_bits", "cheap": True},
+    resolution_param='resolution_bits', cheap=True,
 ))
 
 register(CheckSpec(
@@ -166,5 +166,5 @@ register(CheckSpec(
     default_params=lambda n: [{"n": n}] if n >= 1 else [], both_tails=False,
     source="Poisson law of rare grid points (common practice)",
     notes="resolution inferred from the data: 16 or 32 bits when every value lies on that grid, else 53",
-    extra={"resolution_param": "resolution_bits", "cheap": True},
+    resolution_param='resolution_bits', cheap=True,
 ))
