@@ -12,7 +12,7 @@ from typing import Any, Callable
 from .errors import InputError
 from .intake.budget import requested, resolve
 from .intake.memory import DEFAULT_BUDGET, stream_from_array  # noqa: F401 (stream_from_array: part of the API)
-from .intake.open import open_stream  # noqa: F401 (part of the API)
+from .intake.open import SourceSpec, open_stream  # noqa: F401 (open_stream: part of the API)
 from .intake.sources import RawSource
 from .intake.stream import Stream
 from .battery.battery import run_battery, stopped_report
@@ -46,7 +46,8 @@ def assay(
 ) -> Report | Plan:
     """Assay a stream and return its :class:`~rngassay.model.Report`.
 
-    ``source`` is a file path, ``"-"`` for standard input, or a :class:`RawSource`; or give one of
+    ``source`` is a file path, ``"-"`` for standard input, a :class:`RawSource`, a numpy generator, or a whole
+    :class:`~rngassay.intake.open.SourceSpec` (then the other source options are not used); or give one of
     ``command``, ``python``, ``gen`` (with ``seed``). ``budget`` is the number of bytes to assay
     (``"64MiB"`` or an int; default 64 MiB; a file shorter than that is read whole unless ``budget``
     is given). ``checks``/``skip`` select checks by key, family or identifier. With ``plan_only`` the
@@ -63,9 +64,14 @@ def assay(
 
         # connect before any data is read (unreachable: one InputError line); run_battery's `with` closes it
         executor = DaskExecutor(cluster).__enter__()
-    stream = open_stream(
-        source, fmt=fmt, value_range=value_range, command=command, shell=shell, python=python, gen=gen, seed=seed
-    )
+    if isinstance(source, SourceSpec):
+        spec = source
+    else:
+        path = source if isinstance(source, (str, os.PathLike)) or source is None else None
+        spec = SourceSpec(path=None if path is None else os.fspath(path), command=command, shell=shell, python=python,
+                          gen=gen, seed=seed, fmt=fmt, value_range=value_range,
+                          obj=None if path is not None or source is None else source)
+    stream = spec.open()
     budget_req = requested(budget, stream.fmt)
     budget_bytes = budget_req.amount
     with signal_guard(), stream:

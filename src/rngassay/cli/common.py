@@ -184,34 +184,11 @@ def check_workers(workers: int | None, cluster: str | None = None) -> None:
 
 def input_paths(source: Any = None, command: str | None = None, shell: bool = False, python_spec: str | None = None,
                 extra: tuple = ()) -> list[str]:
-    """Every existing file a run reads, for the report-path check: the source, the --python module's file,
-    a command's arguments that name existing files (the program itself too), and ``extra`` (odds, seeds files)."""
-    import shlex
+    """Every existing file a run reads (see :meth:`rngassay.intake.open.SourceSpec.files`)."""
+    from ..intake.open import SourceSpec
 
-    paths = [p for p in (source, *extra) if isinstance(p, str) and p]
-    if python_spec:
-        mod = python_spec.rsplit(":", 1)[0] if ":" in python_spec else python_spec
-        if os.path.exists(mod):
-            paths.append(mod)
-        elif mod and not mod.endswith(".py"):
-            try:
-                import importlib.util
-
-                spec = importlib.util.find_spec(mod)
-                if spec is not None and spec.origin and os.path.exists(spec.origin):
-                    paths.append(spec.origin)
-            except (ImportError, ValueError, AttributeError):
-                pass
-    if command:
-        try:
-            words = shlex.split(command)
-        except ValueError:
-            words = command.split()
-        for w in words:
-            for part in ([w] + (w.split("=", 1)[1:] if "=" in w else [])):
-                if part and os.path.exists(part) and not os.path.isdir(part):
-                    paths.append(part)
-    return paths
+    return SourceSpec(path=source if isinstance(source, str) else None, command=command, shell=shell,
+                      python=python_spec).files(extra)
 
 
 def write_outputs(report, outputs: list[tuple[str, str]]) -> None:

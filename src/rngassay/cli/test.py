@@ -7,7 +7,7 @@ import os
 import click
 
 from ..errors import InputError
-from .common import (EXIT_OK, Progress, check_outputs, check_source_given, check_workers, finish, input_paths, out,
+from .common import (EXIT_OK, Progress, check_outputs, check_source_given, check_workers, finish, out,
                      report_options, source_options, split, text, write_outputs)
 
 
@@ -34,16 +34,18 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
     defer_signals()  # a stop signal while starting up is kept for the run, which then ends in a report
     from .. import api
 
+    from ..intake.open import SourceSpec
+
+    spec = SourceSpec(path=source, command=command, shell=shell, python=python_spec, gen=gen, seed=seed, fmt=fmt,
+                      value_range=value_range)
     check_source_given(source, command, python_spec, gen)
     check_workers(workers, cluster)
-    outputs = check_outputs(json_path, html_path, junit_path, input_paths(source, command, shell, python_spec))
-    if shell and command is None:
-        raise InputError("--shell applies to --command only", "", "drop --shell or give --command")
+    outputs = check_outputs(json_path, html_path, junit_path, spec.files())
+    spec.check()
     progress = Progress(quiet)
     try:
         result = api.assay(
-            source, fmt=fmt, value_range=value_range, command=command, shell=shell, python=python_spec,
-            gen=gen, seed=seed, budget=budget, checks=split(checks), skip=split(skip), alpha=alpha,
+            spec, budget=budget, checks=split(checks), skip=split(skip), alpha=alpha,
             workers=workers or (os.cpu_count() or 1), retest=not no_retest, progress=progress, plan_only=plan_only,
             cluster=cluster,
         )

@@ -4,7 +4,10 @@ as one decoded, accounted, hashed :class:`~rngassay.intake.stream.Stream`."""
 from __future__ import annotations
 
 import os
+from dataclasses import dataclass
+from typing import Any
 
+from ..errors import InputError
 from .formats import parse_format
 from .sources import ArraySource, RawSource, draw_function, open_source
 from .stream import Stream
@@ -39,3 +42,70 @@ def open_stream(
     else:
         raw = open_source(source, command=command, shell=shell, python=python, gen=gen, seed=seed)
     return Stream(raw, f)
+
+
+@dataclass(frozen=True)
+class SourceSpec:
+    """Where a run's values come from -- the one description of a source that api, the command line and seed
+    sweeps share: a ``path`` (``"-"``: standard input), a ``command`` (``shell``: through the shell), a ``python``
+    factory ``FILE.py:NAME``, a built-in generator ``gen`` (with ``seed``), or an object handed over in Python
+    (``obj``: a RawSource, a numpy Generator/BitGenerator or a draw(n_bytes) callable); and the format."""
+
+    path: str | None = None
+    command: str | None = None
+    shell: bool = False
+    python: str | None = None
+    gen: str | None = None
+    seed: int | None = None
+    fmt: str | None = None
+    value_range: str | tuple[int, int] | None = None
+    obj: Any = None
+
+    def given(self) -> list[str]:
+        """The kinds of source named (one expected)."""
+        named = {"a path": self.path, "--command": self.command, "--python": self.python, "--gen": self.gen,
+                 "an object": self.obj}
+        return [k for k, v in named.items() if v is not None]
+
+    def check(self) -> None:
+        """Options that cannot go together: one line naming them, before anything is opened."""
+        if self.shell and self.command is None:
+            raise InputError("--shell applies to --command only", "", "drop --shell or give --command")
+
+    def open(self) -> Stream:
+        """The decoded, accounted, hashed stream of this source."""
+        self.check()
+        return open_stream(self.obj if self.obj is not None else self.path, fmt=self.fmt,
+                           value_range=self.value_range, command=self.command, shell=self.shell, python=self.python,
+                           gen=self.gen, seed=self.seed)
+
+    def files(self, extra: tuple = ()) -> list[str]:
+        """Every existing file a run with this source reads (never to be overwritten by a report): the path, the
+        --python module's file, a command's arguments that name existing files (the program itself too), and
+        ``extra`` (e.g. an odds file, a seeds file)."""
+        import shlex
+
+        paths = [p for p in (self.path, *extra) if isinstance(p, str) and p]
+        if self.python:
+            mod = self.python.rsplit(":", 1)[0] if ":" in self.python else self.python
+            if os.path.exists(mod):
+                paths.append(mod)
+            elif mod and not mod.endswith(".py"):
+                try:
+                    import importlib.util
+
+                    spec = importlib.util.find_spec(mod)
+                    if spec is not None and spec.origin and os.path.exists(spec.origin):
+                        paths.append(spec.origin)
+                except (ImportError, ValueError, AttributeError):
+                    pass
+        if self.command:
+            try:
+                words = shlex.split(self.command)
+            except ValueError:
+                words = self.command.split()
+            for w in words:
+                for part in ([w] + (w.split("=", 1)[1:] if "=" in w else [])):
+                    if part and os.path.exists(part) and not os.path.isdir(part):
+                        paths.append(part)
+        return paths

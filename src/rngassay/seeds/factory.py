@@ -42,6 +42,13 @@ class SeedFactory:
 
     # -- construction ------------------------------------------------------------------------------------
     @classmethod
+    def from_spec(cls, spec: Any) -> "SeedFactory":
+        """The factory of a :class:`~rngassay.intake.open.SourceSpec` (its seed is left to the sweep; ``obj``:
+        a callable factory(seed))."""
+        return cls.from_options(python=spec.python, command=spec.command, gen=spec.gen, shell=spec.shell,
+                                factory=spec.obj)
+
+    @classmethod
     def from_options(cls, python: str | None = None, command: str | None = None, gen: str | None = None,
                      shell: bool = False, factory: Callable[..., Any] | None = None) -> "SeedFactory":
         given = [x for x in (python, command, gen, factory) if x is not None]

@@ -531,7 +531,9 @@ def sweep_seeds(
     from ..sizes import parse_size
     from .seedsets import resolve_seeds
 
-    f = SeedFactory.from_options(python=python, command=command, gen=gen, shell=shell, factory=factory)
+    from ..intake.open import SourceSpec
+
+    f = SeedFactory.from_spec(SourceSpec(command=command, shell=shell, python=python, gen=gen, obj=factory))
     if seeds is not None and not isinstance(seeds, str):
         if seed_set is not None:
             raise InputError("both --seeds and --seed-set given", "", "give one of them")
