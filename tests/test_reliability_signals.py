@@ -23,6 +23,40 @@ def _start(args, tmp_path, **kw):
     return p, j, x
 
 
+def _cpu_seconds(pid: int) -> float:
+    """CPU time (user + system) the process has used, from /proc/PID/stat."""
+    import os
+
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as f:
+            fields = f.read().rsplit(b")", 1)[1].split()
+        return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+    except (OSError, ValueError, IndexError):
+        return 0.0
+
+
+def _wait_until_running(p, cpu: float = 3.0, timeout: float = 90.0) -> None:
+    """Wait until the run is surely under way: loading the command line takes about 1.6 s of CPU here (measured
+    with `time rngassay test --help`), so after ``cpu`` seconds of CPU the run has started, however loaded the
+    machine (a fixed sleep is not: under load, loading alone can take longer than the sleep)."""
+    deadline = time.monotonic() + timeout
+    while _cpu_seconds(p.pid) < cpu and time.monotonic() < deadline and p.poll() is None:
+        time.sleep(0.05)
+
+
+def _wait_until_blocked(p, timeout: float = 90.0) -> None:
+    """Wait until the program has loaded and sits waiting (its CPU time stops growing for half a second)."""
+    deadline = time.monotonic() + timeout
+    last, still = -1.0, 0
+    while time.monotonic() < deadline and p.poll() is None:
+        now = _cpu_seconds(p.pid)
+        still = still + 1 if (now == last and now > 1.0) else 0
+        if still >= 10:
+            return
+        last = now
+        time.sleep(0.05)
+
+
 def _finish(p, timeout=60):
     try:
         out, err = p.communicate(timeout=timeout)
@@ -50,7 +84,7 @@ def test_stop_signal_writes_incomplete_reports(tmp_path, sig, code):
     # 128 MiB per check: the run lasts far beyond the 3 s before the signal, yet no single check (which runs in
     # this process and ends before the signal is handled) keeps a loaded machine busy for a minute
     p, j, x = _start(["--gen", "pcg64", "--budget", "128MiB", "--workers", "1"], tmp_path)
-    time.sleep(3)
+    _wait_until_running(p)
     t = time.monotonic()
     p.send_signal(sig)
     rc, out, err = _finish(p)
@@ -64,7 +98,8 @@ def test_stop_signal_writes_incomplete_reports(tmp_path, sig, code):
 def test_sigint_twice_with_workers_keeps_the_report_and_workers_are_silent(tmp_path):
     p, j, x = _start(["--gen", "pcg64", "--budget", "1GiB", "--workers", "2"], tmp_path,
                      start_new_session=True)
-    time.sleep(4)
+    _wait_until_running(p)
+    time.sleep(1)  # the worker pool is up
     # as Ctrl-C does: the whole process group (workers included) gets SIGINT, then once more
     import os
 
@@ -84,7 +119,7 @@ def test_sigint_twice_with_workers_keeps_the_report_and_workers_are_silent(tmp_p
 def test_sigint_while_standard_input_is_read(tmp_path):
     # a writer that never sends anything: the read is interrupted and the run still ends in a report
     p, j, x = _start(["-", "--budget", "1MiB", "--workers", "1"], tmp_path, stdin=subprocess.PIPE)
-    time.sleep(3)
+    _wait_until_blocked(p)
     p.send_signal(signal.SIGINT)
     rc, out, err = _finish(p, timeout=30)
     p.stdin.close()

@@ -43,6 +43,7 @@ def assay(
     progress: Callable[[str], None] | None = None,
     plan_only: bool = False,
     cluster: str | None = None,
+    partial: bool = False,
 ) -> Report | Plan:
     """Assay a stream and return its :class:`~rngassay.model.Report`.
 
@@ -52,6 +53,10 @@ def assay(
     (``"64MiB"`` or an int; default 64 MiB; a file shorter than that is read whole unless ``budget``
     is given). ``checks``/``skip`` select checks by key, family or identifier. With ``plan_only`` the
     :class:`~rngassay.battery.plan.Plan` is returned without reading any data.
+
+    Bad data found mid-run (e.g. a NaN in a float stream) raises :class:`~rngassay.errors.InputError`; with
+    ``partial=True`` the report of what finished is returned instead, marked incomplete, with the error in
+    ``report.input_error`` (what the command line files before it shows the error).
     """
     import time
 
@@ -98,6 +103,8 @@ def assay(
             stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
             settings=settings, t0=t0, executor=executor,
         )
+    if report.input_error is not None and not partial:
+        raise report.input_error
     return report
 
 

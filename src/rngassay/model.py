@@ -98,6 +98,8 @@ class Report:
     tool_version: str = __version__
     schema: str = SCHEMA
     cautions: list[str] = field(default_factory=lambda: list(CAUTIONS))
+    # not part of the JSON: the bad-input error (what, where, hint) that stopped the run, when one did
+    input_error: Any = field(default=None, repr=False, compare=False)
 
     # -- outcomes ------------------------------------------------------------------------------
     def exit_code(self, strict: bool = False) -> int:

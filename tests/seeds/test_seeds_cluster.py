@@ -113,7 +113,7 @@ def test_dask_executor_runs_the_battery_like_the_local_one(client, shared):
 
     def run(ex):
         with ex:
-            outs, complete, _ = run_plan(stream(), plan, ex)
+            outs, complete, _, _ = run_plan(stream(), plan, ex)
         assert complete
         return [[None if rs is None else [(r.statistic, r.p_value, r.p_left) for r in rs] for rs in o.results]
                 for o in outs]

@@ -31,21 +31,16 @@ def run_battery(
     t0 = time.perf_counter() if t0 is None else t0
     registry = load_all()
     notes: list[str] = list(f"left out {s}" for s in plan.skipped)
-    stop_error = None
     prev_deferred = signals_deferred()
     if executor is None and workers is not None:
         workers = max(1, min(workers, len(plan.checks)))  # no more worker processes than checks
     with signal_guard(), (executor if executor is not None else Executor(workers)) as ex:
-        try:
-            outcomes, complete, reason = run_plan(stream, plan, ex, progress=progress)
-        except InputError as e:
-            outcomes = getattr(e, "partial", None)
-            if outcomes is None or not any(r is not None for o in outcomes for r in o.results):
-                if outcomes is not None:  # died before any check finished: nothing to report
-                    e.what += f" (no check finished: {completed_of_planned(outcomes)}; no report written)"
-                raise
-            stop_error, complete, reason = e, False, f"stopped by bad input: {e.line()}"
-            e.what += f" ({completed_of_planned(outcomes)}; the report of what finished is marked incomplete)"
+        outcomes, complete, reason, stop_error = run_plan(stream, plan, ex, progress=progress)
+        if stop_error is not None:
+            if not any(r is not None for o in outcomes for r in o.results):  # nothing finished: nothing to file
+                stop_error.what += f" (no check finished: {completed_of_planned(outcomes)}; no report written)"
+                raise stop_error
+            stop_error.what += f" ({completed_of_planned(outcomes)}; the report of what finished is marked incomplete)"
         defer_signals()  # grading and the reports are not cut short by a (second) stop signal
         rounds1 = [G.second_level(o) for o in outcomes]
         done = [(o, r) for o, r in zip(outcomes, rounds1) if r is not None]
@@ -70,7 +65,9 @@ def run_battery(
                 if progress:
                     progress(f"retesting {len(todo)} borderline check(s) on fresh data")
                 try:  # (run_plan can be interrupted like the first round)
-                    outs2, complete2, reason2 = run_plan(stream, plan, ex, checks=todo, progress=progress)
+                    outs2, complete2, reason2, err2 = run_plan(stream, plan, ex, checks=todo, progress=progress)
+                    if err2 is not None:
+                        raise err2
                 except Exception as e:  # no more data: keep round one
                     outs2, complete2, reason2 = [], True, None
                     notes.append(f"borderline checks were not retested: {getattr(e, 'line', lambda: str(e))()}")
@@ -117,9 +114,7 @@ def run_battery(
         notes=notes,
     )
     defer_signals(prev_deferred)
-    if stop_error is not None:
-        stop_error.partial_report = report  # type: ignore[attr-defined]
-        raise stop_error
+    report.input_error = stop_error  # bad data mid-run: the report of what finished, and the error to show
     return report
 
 

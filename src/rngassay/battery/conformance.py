@@ -292,8 +292,11 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
     plan.skipped = [PIT_PREFIX + s for s in plan.skipped]
     with stream_from_array(u, "<f8", name=f"PIT values of {var.source.get('name')} under {decl.spec}",
                            kind="derived") as stream:
-        return run_battery(stream, plan, alpha=alpha, workers=workers, retest=False, progress=progress,
-                           command="fit", settings={"workers_used": workers, "retest": False})
+        rep = run_battery(stream, plan, alpha=alpha, workers=workers, retest=False, progress=progress,
+                          command="fit", settings={"workers_used": workers, "retest": False})
+    if rep.input_error is not None:  # values made here are valid: bad data would be a fault of ours
+        raise rep.input_error
+    return rep
 
 
 def _matches(key: str, cid: str, family: str, patterns: list[str]) -> bool:

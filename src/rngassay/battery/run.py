@@ -12,7 +12,7 @@ import os
 import signal
 import time
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import Any, Callable, NamedTuple
 
 import numpy as np
 
@@ -61,6 +61,15 @@ def _worker_init() -> None:
     for name, action in (("SIGINT", signal.SIG_IGN), ("SIGHUP", signal.SIG_IGN), ("SIGTERM", signal.SIG_DFL)):
         if hasattr(signal, name):
             signal.signal(getattr(signal, name), action)
+
+
+class PlanRun(NamedTuple):
+    """What a run of a plan returned: complete, or partial with what finished and why it stopped."""
+
+    outcomes: list["Outcome"]
+    complete: bool
+    reason: str | None
+    error: Any = None  # the InputError (bad or missing data) that stopped the run, if one did
 
 
 @dataclass
@@ -275,16 +284,18 @@ def run_plan(
     executor: Executor,
     checks: list[PlannedCheck] | None = None,
     progress: Callable[[str], None] | None = None,
-) -> tuple[list[Outcome], bool, str | None]:
+) -> "PlanRun":
     """Run (a subset of) the plan's checks over ``plan.segments`` fresh segments of the stream.
 
-    Returns (outcomes in plan order, complete?, reason when incomplete). Ctrl-C (SIGINT, SIGTERM,
-    SIGHUP inside a :func:`signal_guard`; also one that came before the run started) and a source that
-    dies mid-run end the run early: what finished is kept and the run is marked incomplete.
+    Returns a :class:`PlanRun` (outcomes in plan order, complete?, reason when incomplete, the input error
+    that stopped it). Ctrl-C (SIGINT, SIGTERM, SIGHUP inside a :func:`signal_guard`; also one that came
+    before the run started), a source that dies and bad data mid-run end the run early: what finished is
+    kept and the run is marked incomplete -- a result, never an exception carrying one.
     """
     from ..errors import InputError
 
     todo = list(checks if checks is not None else plan.checks)
+    error = None
     outcomes = [Outcome(pc, [None] * pc.replicates) for pc in todo]
     reason = None
     prev_deferred = _Guard.deferred
@@ -357,9 +368,8 @@ def run_plan(
         reason = "interrupted" + (f" by {signal_name(signum)}" if signum else "")
         executor.abort(grace=0.5)  # the segment being checked already had its grace period
     except InputError as e:
-        # bad or missing data mid-run: keep what finished, and let the caller report the error
-        e.partial = outcomes  # type: ignore[attr-defined]
-        raise
+        # bad or missing data mid-run: keep what finished; the caller files it and reports the error
+        error, reason = e, f"stopped by bad input: {e.line()}"
     except BrokenProcessPool:
         reason = "a worker process died"
         signum = received_signal()
@@ -368,7 +378,7 @@ def run_plan(
         executor.abort()
     finally:
         _Guard.deferred = prev_deferred
-    return outcomes, reason is None, reason
+    return PlanRun(outcomes, reason is None, reason, error)
 
 
 def _keep(outcomes: list[Outcome], results: list, j: int) -> None:

@@ -47,17 +47,14 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
         result = api.assay(
             spec, budget=budget, checks=split(checks), skip=split(skip), alpha=alpha,
             workers=workers or (os.cpu_count() or 1), retest=not no_retest, progress=progress, plan_only=plan_only,
-            cluster=cluster,
+            cluster=cluster, partial=True,
         )
-    except InputError as e:
-        partial = getattr(e, "partial_report", None)
-        if partial is not None:  # bad data mid-run: file what finished, marked incomplete, then the error
-            progress.done()
-            write_outputs(partial, outputs)
-            out(text(partial))
-        raise
     finally:
         progress.done()
+    if not plan_only and result.input_error is not None:  # bad data mid-run: file what finished, then the error
+        write_outputs(result, outputs)
+        out(text(result))
+        raise result.input_error
     if plan_only:
         out(result.describe())
         raise click.exceptions.Exit(EXIT_OK)

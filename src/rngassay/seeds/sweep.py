@@ -470,7 +470,7 @@ def _sub_battery(arr: np.ndarray, rid: str, executor: Any, notes: list[str]) -> 
         notes.append(f"{rid}: {arr.size} bytes are too few for the battery")
         return None
     stream = Stream(BytesSource(rid, arr), _U1)
-    outcomes, complete, reason = run_plan(stream, plan, executor)
+    outcomes, complete, reason, _error = run_plan(stream, plan, executor)
     found = []
     errors = []
     for oc in outcomes:
