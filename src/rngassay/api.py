@@ -20,7 +20,8 @@ from .signals import signal_guard, signal_name
 from .battery.grade import DEFAULT_ALPHA
 from .battery.plan import Plan, make_plan
 from .model import Report
-from .battery.conformance import DEFAULT_PIT_SEED, run_fit
+from .battery.conformance import DEFAULT_PIT_SEED, fit_values, read_for
+from .checks.transform.declared import parse_dist_spec, read_odds
 
 
 
@@ -173,5 +174,18 @@ def fit(
     families), identifier, ``pit`` (the whole PIT battery) or ``pit: X``.  ``battery=False`` runs
     the fit-specific checks only.  Returns a :class:`~rngassay.model.Report` (command "fit").
     """
-    return run_fit(source, dist=dist, odds=odds, fmt=fmt, command=command, shell=shell, limit=limit, checks=checks,
-                   skip=skip, battery=battery, alpha=alpha, workers=workers, pit_seed=pit_seed, progress=progress)
+    import time
+
+    t0 = time.perf_counter()
+    if (dist is None) == (odds is None):
+        raise InputError("give exactly one of --dist and --odds" if dist is not None else "give --dist SPEC or --odds FILE",
+                         "", "--dist for a scipy.stats distribution (e.g. --dist 'norm(loc=0, scale=1)'), "
+                         "--odds for a table of outcome probabilities")
+    if not 0 < alpha < 1:
+        raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
+    decl = parse_dist_spec(dist) if dist is not None else read_odds(odds)  # type: ignore[arg-type]
+    if progress:
+        progress("reading the values")
+    var = read_for(decl, source, fmt=fmt, command=command, shell=shell, limit=limit)
+    return fit_values(var, decl, checks=checks, skip=skip, battery=battery, alpha=alpha, workers=workers,
+                      pit_seed=pit_seed, progress=progress, t0=t0)

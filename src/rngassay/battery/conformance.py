@@ -31,7 +31,6 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import os
 import time
 from typing import Any, Callable
 
@@ -41,8 +40,7 @@ from ..checks.transform.conformance import (FIT_TAIL_LEVELS, FitCheck, anderson_
                                             extreme_value_check, interval_pit, outcome_deviation_check,
                                             outcome_frequency_check, randomised_pit, serial_check,
                                             tail_count_check, tail_log_areas)
-from ..checks.transform.declared import (Declaration, categories_for, discrete_validator, parse_dist_spec,
-                                         read_odds)
+from ..checks.transform.declared import Declaration, categories_for, discrete_validator
 from ..checks.registry import matches
 from ..errors import InputError
 from ..intake.memory import stream_from_array
@@ -64,39 +62,6 @@ FIT_CAUTIONS = [
     CAUTIONS[1],
     "For gaming, defer to the jurisdiction's technical standards and accredited test laboratories.",
 ]
-
-
-def run_fit(
-    source: Any = None,
-    *,
-    dist: str | None = None,
-    odds: str | os.PathLike | None = None,
-    fmt: str = "text",
-    command: str | None = None,
-    shell: bool = False,
-    limit: int | None = None,
-    checks: list[str] | None = None,
-    skip: list[str] | None = None,
-    battery: bool = True,
-    alpha: float = 1e-3,
-    workers: int | None = 1,
-    pit_seed: int = DEFAULT_PIT_SEED,
-    progress: Callable[[str], None] | None = None,
-) -> Report:
-    """Read the declaration and the values, then :func:`fit_values` (the arguments of :func:`rngassay.api.fit`)."""
-    t0 = time.perf_counter()
-    if (dist is None) == (odds is None):
-        raise InputError("give exactly one of --dist and --odds" if dist is not None else "give --dist SPEC or --odds FILE",
-                         "", "--dist for a scipy.stats distribution (e.g. --dist 'norm(loc=0, scale=1)'), "
-                         "--odds for a table of outcome probabilities")
-    if not 0 < alpha < 1:
-        raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
-    decl = parse_dist_spec(dist) if dist is not None else read_odds(odds)  # type: ignore[arg-type]
-    if progress:
-        progress("reading the values")
-    var = read_for(decl, source, fmt=fmt, command=command, shell=shell, limit=limit)
-    return fit_values(var, decl, checks=checks, skip=skip, battery=battery, alpha=alpha, workers=workers,
-                      pit_seed=pit_seed, progress=progress, t0=t0)
 
 
 def read_for(decl: Declaration, source: Any, **kw: Any) -> Variates:

@@ -11,6 +11,11 @@ import hashlib
 import numpy as np
 from numba import njit
 
+from ..intake.formats import parse_format
+from ..intake.views import as_uniforms
+
+_U1 = parse_format("u1")
+
 WINDOW = 16  # bytes per overlap window (128 bits)
 
 
@@ -73,9 +78,10 @@ def anchors(mat: np.ndarray, spacing: int, cap: int) -> tuple[np.ndarray, np.nda
 
 
 def uniforms(mat: np.ndarray) -> np.ndarray:
-    """Rows of bytes -> rows of float64 uniforms from little-endian 64-bit words, 53-bit resolution."""
-    w = np.ascontiguousarray(mat).view("<u8")
-    return (w >> np.uint64(11)).astype(np.float64) * (2.0**-53)
+    """Rows of bytes -> rows of float64 uniforms, the battery's own conversion of bytes (intake.views: the top
+    53 bits of each little-endian 64-bit word)."""
+    mat = np.ascontiguousarray(mat, dtype=np.uint8)
+    return as_uniforms(mat.reshape(-1), _U1).reshape(mat.shape[0], -1)
 
 
 @njit(cache=True)
