@@ -22,6 +22,9 @@ def flawed_file(tmp_path_factory):
     return p
 
 
+# slow: the whole default battery twice on 2 MiB (~30 s); the fast run keeps `demo` (reports written, a fail)
+# and the one-check runs of `test` and `diff` below
+@pytest.mark.slow
 def test_reports_written_and_exit_codes(run_cli, tmp_path, sound_file, flawed_file):
     j, h, x = tmp_path / "r.json", tmp_path / "r.html", tmp_path / "r.xml"
     r = run_cli("test", sound_file, "--workers", "1", "--json", j, "--html", h, "--junit", x, "-q")

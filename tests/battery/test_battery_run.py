@@ -59,6 +59,7 @@ def test_shared_file_segments_and_json_contract(tmp_path):
         assert 0 < c["p_value"] <= 1
 
 
+@pytest.mark.slow  # power: the whole battery twice on 4 MiB (~25 s)
 def test_flawed_generator_fails_and_sound_passes():
     # fixed seeds; the flawed generator's failure is at p < 1e-10, far from any chance effect
     bad = api.assay(gen="lcg32", seed=1, budget="4MiB", workers=1)

@@ -52,6 +52,7 @@ def test_stdin_any_chunk_sizes(sizes):
     assert v.astype("<u8").tobytes() == data
 
 
+@pytest.mark.slow  # two real processes, the reader running the battery (~15 s)
 def test_stdin_pipe_slow_writer(tmp_path):
     # a real pipe from a program that writes slowly, in odd pieces
     writer = textwrap.dedent(
