@@ -152,3 +152,15 @@ def test_the_checker_finds_an_upward_import_and_a_circle():
     # the test must be able to fail: a made-up graph with one upward import and one circle
     assert _layer("rngassay.checks.classic.gap") > _layer("rngassay.battery.plan")
     assert _cycles({"a": {"b"}, "b": {"a"}, "c": {"a"}}) == [["a", "b"]]
+
+
+def test_loading_the_command_line_loads_no_numerics():
+    # `rngassay --help` and `--version` stay quick: numpy, scipy, numba and matplotlib load only when a command
+    # runs (a structural check in a fresh interpreter, not a timing)
+    import subprocess
+    import sys
+
+    code = ("import sys, rngassay.cli; heavy = [m for m in ('numpy', 'scipy', 'numba', 'matplotlib') "
+            "if m in sys.modules]; print(','.join(heavy))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.strip()
+    assert out == "", f"loaded at start-up: {out}"

@@ -47,10 +47,9 @@ from ..intake.memory import stream_from_array
 from ..intake.variates import Variates, read_variates, variates_from_array
 from ..intake.views import decimal_grid
 from ..model import CAUTIONS, CheckReport, Report
+from .defaults import DEFAULT_PIT_SEED
 from .grade import BORDERLINE_FACTOR, graded_report
 
-#: Default seed of the randomised PIT (discrete declarations, and continuous values on a decimal grid).
-DEFAULT_PIT_SEED = 20240917
 #: Fewest values a fit runs on.
 MIN_FIT_VALUES = 50
 #: Prefix of the PIT battery's check ids (and of its selectors).

@@ -6,9 +6,8 @@ import os
 
 import click
 
-from .. import api
 from ..errors import InputError
-from ..battery.conformance import DEFAULT_PIT_SEED
+from ..battery.defaults import DEFAULT_PIT_SEED
 from .common import Progress, check_outputs, check_source_given, check_workers, finish, input_paths, report_options, split
 
 
@@ -48,6 +47,8 @@ def register_cli(cli_group) -> None:
                                  input_paths(source, command, shell, None, (odds_path,)))
         progress = Progress(quiet)
         try:
+            from .. import api
+
             report = api.fit(source, dist=dist_spec, odds=odds_path, fmt=fmt, command=command, shell=shell, limit=limit,
                          checks=split(checks), skip=split(skip), battery=not no_battery, alpha=alpha,
                          workers=workers or (os.cpu_count() or 1), pit_seed=pit_seed, progress=progress)

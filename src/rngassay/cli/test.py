@@ -6,7 +6,6 @@ import os
 
 import click
 
-from ..errors import InputError
 from .common import (EXIT_OK, Progress, check_outputs, check_source_given, check_workers, finish, out,
                      report_options, source_options, split, text, write_outputs)
 
