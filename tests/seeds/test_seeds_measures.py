@@ -25,21 +25,21 @@ def test_early_bytes_chi_square_matches_scipy():
     first = _rows(1, 2000, 4)
     m = M.early_bytes(first)
     # 2000 seeds: cells = 2^floor(log2(2000/5)) = 2^8 = 256 (5 expected per cell, common practice)
-    assert m["details"]["cells"] == 256
-    j = m["details"]["worst_position"]
+    assert m.details["cells"] == 256
+    j = m.details["worst_position"]
     ref = sps.chisquare(np.bincount(first[:, j], minlength=256))  # scipy.stats as reference
-    assert m["details"]["worst_position_chi2"] == pytest.approx(ref.statistic, rel=1e-12)
+    assert m.details["worst_position_chi2"] == pytest.approx(ref.statistic, rel=1e-12)
     # both tails, doubled smaller: 2 min(sf, cdf) (common practice)
     p_chi = min(1.0, 2 * min(ref.pvalue, sps.chi2.cdf(ref.statistic, 255)))
-    assert m["details"]["worst_position_p_chi2"] == pytest.approx(p_chi, rel=1e-9)
+    assert m.details["worst_position_p_chi2"] == pytest.approx(p_chi, rel=1e-9)
     # a sound input: p-value above 1e-6 (false failure below 1e-6 at this level; fixed seed)
-    assert m["p_value"] > 1e-6
+    assert m.p_value > 1e-6
 
 
 def test_early_bytes_cells_shrink_with_few_seeds():
     m = M.early_bytes(_rows(2, 100, 8))
     # 100 seeds: b = floor(log2(100/5)) = 4 -> 16 cells of top 4 bits
-    assert m["details"]["cells"] == 16 and m["details"]["expected_per_cell"] == pytest.approx(100 / 16)
+    assert m.details["cells"] == 16 and m.details["expected_per_cell"] == pytest.approx(100 / 16)
     assert M.early_bytes(_rows(2, 9, 8)) is None
 
 
@@ -50,11 +50,11 @@ def test_early_bytes_flags_one_favoured_value():
     rng = np.random.default_rng(4)
     first[rng.random(20000) < 1 / 256, 1] = 0
     m = M.early_bytes(first)
-    assert m["details"]["worst_position"] == 1 and m["details"]["worst_cell_values"] == "0..0"
+    assert m.details["worst_position"] == 1 and m.details["worst_cell_values"] == "0..0"
     # the cell count is Binomial(20000, 1/256) under H0 (mean 78, sd 8.8); ~156 observed is ~9 sd out
-    k = m["details"]["worst_cell_count"]
+    k = m.details["worst_cell_count"]
     ref = sps.binomtest(k, 20000, 1 / 256, alternative="greater").pvalue  # scipy.stats as reference
-    assert ref < 1e-12 and m["p_value"] < 1e-8
+    assert ref < 1e-12 and m.p_value < 1e-8
 
 
 # ------------------------------------------------------------------------------------------- avalanche
@@ -80,13 +80,13 @@ def test_avalanche_pooled_binomial_matches_scipy():
     D, n = int(d.sum()), 4000 * 128
     # for p = 1/2 the doubled smaller tail equals scipy's two-sided binomial test (symmetric law)
     ref = sps.binomtest(D, n, 0.5).pvalue
-    assert m["details"]["p_pooled"] == pytest.approx(ref, rel=1e-9)
-    assert m["p_value"] > 1e-6  # sound input (false failure below 1e-6; fixed seed)
+    assert m.details["p_pooled"] == pytest.approx(ref, rel=1e-9)
+    assert m.p_value > 1e-6  # sound input (false failure below 1e-6; fixed seed)
     # a weak mixer: 40 of 128 bits change on average for flips of bit 17
     d2 = d.copy()
     d2[bit == 17] = rng.binomial(128, 40 / 128, size=int((bit == 17).sum()))
     m2 = M.avalanche(d2, bit, 128, 64)
-    assert m2["details"]["worst_seed_bit"] == 17 and m2["p_value"] < 1e-20
+    assert m2.details["worst_seed_bit"] == 17 and m2.p_value < 1e-20
 
 
 def test_hamming_and_sidak():
@@ -115,7 +115,7 @@ def test_cross_z_formula_and_null_law():
     big = K.cross_z(_rows(7, 301, 8 * 1024), 4).ravel()
     assert sps.kstest(big, "norm").pvalue > 1e-6
     m = M.cross_correlation(K.cross_z(_rows(8, 200, 8 * 1024), 4), 4)
-    assert m["p_value"] > 1e-6
+    assert m.p_value > 1e-6
 
 
 def test_cross_correlation_sees_a_shift_by_one_word():
@@ -125,7 +125,7 @@ def test_cross_correlation_sees_a_shift_by_one_word():
     # lag +1: a[t+1] = b[t]: z = 12 sum (u - 1/2)^2 / sqrt(n - 1) ~ sqrt(n - 1) = 32 (sd of the sum ~ 0.9 in z)
     assert 28 < z[0, 2 + 1] < 36
     m = M.cross_correlation(z, 2, np.array([[10, 11]], np.uint64))
-    assert m["details"]["max_z_lag"] == 1 and m["details"]["max_z_pair"] == [10, 11] and m["p_value"] < 1e-100
+    assert m.details["max_z_lag"] == 1 and m.details["max_z_pair"] == [10, 11] and m.p_value < 1e-100
 
 
 # ------------------------------------------------------------------------------------- overlaps/merging
@@ -140,18 +140,18 @@ def _overlap_result(mat, spacing=64):
 def test_overlaps_find_shifts_and_duplicates_only():
     mat = _rows(10, 40, 4096)
     clean = _overlap_result(mat)
-    assert clean["p_value"] == 1.0 and clean["statistic"] == 0
+    assert clean.p_value == 1.0 and clean.statistic == 0
     long = _rows(11, 1, 4096 + 777)[0]
     mat[5] = long[:4096]
     mat[17] = long[777:]  # stream of seed 117 = stream of seed 105 from byte 777
     mat[30] = mat[3]  # identical streams
     m = _overlap_result(mat)
-    d = m["details"]
+    d = m.details
     assert d["duplicate_streams"] == 1 and d["duplicates"] == [[103, 130]]
     assert {"seed_a": 105, "seed_b": 117, "shift_bytes": 777} in d["overlaps"]
     # birthday bound: C(N, 2) spacing 2^-128 <= 2^(2 log2 N - 1 + log2 spacing - 128) (union bound)
     N = d["windows_compared"]
-    assert m["p_value"] <= 2.0 ** (2 * math.log2(N) - 1 + 6 - 128) * 1.01 and m["p_value"] < 1e-20
+    assert m.p_value <= 2.0 ** (2 * math.log2(N) - 1 + 6 - 128) * 1.01 and m.p_value < 1e-20
 
 
 def test_anchor_windows_are_content_defined():

@@ -15,9 +15,16 @@ from scipy import special
 from scipy import stats as sps
 
 from .. import stats
+from ..checks.result import CheckResult
 from ..stats import bonferroni, sidak
 
 MIN_EXPECTED = 5.0  # chi-square cells need at least this many expected counts (common practice)
+
+
+def _result(name: str, d: dict[str, Any]) -> CheckResult:
+    """A row check's outcome as the battery's result type (details stay as they are for the report)."""
+    return CheckResult(name=name, statistic=float(d["statistic"]), p_value=float(d["p_value"]), null=d["null"],
+                       kind=d["kind"], details=d["details"])
 
 
 def _binom_two_sided(k: np.ndarray, n: np.ndarray, p: float) -> np.ndarray:
@@ -32,7 +39,7 @@ def _binom_two_sided(k: np.ndarray, n: np.ndarray, p: float) -> np.ndarray:
 # ---------------------------------------------------------------------------------------------- early bytes
 
 
-def early_bytes(first: np.ndarray) -> dict[str, Any] | None:
+def early_bytes(first: np.ndarray) -> CheckResult | None:
     """Distribution of each early output byte across seeds.
 
     H0: for each position j < P, byte j of the streams of the S seeds are S independent uniform bytes.
@@ -67,7 +74,7 @@ def early_bytes(first: np.ndarray) -> dict[str, Any] | None:
     jw = int(np.argmin(p_pos))
     cw = int(np.argmin(p_cells[jw]))
     p = bonferroni(p_pos.tolist())
-    return {
+    return _result("early bytes", {
         "p_value": p,
         "statistic": float(chi2[jw]),
         "null": f"per position: chi2(df={K - 1}) and Binomial({S}, 1/{K}) per cell",
@@ -81,7 +88,7 @@ def early_bytes(first: np.ndarray) -> dict[str, Any] | None:
             "worst_cell_count": int(counts[jw, cw]),
             "method": "Bonferroni over positions of min(chi-square two-sided, Sidak max-cell binomial) x 2",
         },
-    }
+    })
 
 
 # ---------------------------------------------------------------------------------------------- avalanche
@@ -124,7 +131,7 @@ def avalanche_edges(bases: np.ndarray, bits: int) -> tuple[np.ndarray, np.ndarra
             dropped)
 
 
-def avalanche(distances: np.ndarray, flipped_bit: np.ndarray, nbits: int, seed_bits: int) -> dict[str, Any] | None:
+def avalanche(distances: np.ndarray, flipped_bit: np.ndarray, nbits: int, seed_bits: int) -> CheckResult | None:
     """Seed avalanche: how many of the first ``nbits`` output bits change when one seed bit flips.
 
     H0: the first outputs of the two seeds of each pair are independent uniform strings, so each distance
@@ -149,7 +156,7 @@ def avalanche(distances: np.ndarray, flipped_bit: np.ndarray, nbits: int, seed_b
     p_bits = sidak(float(pj[jw]), int(have.sum()))
     p = bonferroni([p_pool, p_bits])
     mean_j = np.where(have, Dj / np.maximum(Ej, 1), np.nan)
-    return {
+    return _result("avalanche", {
         "p_value": p,
         "statistic": float(D),
         "null": f"Binomial({n}, 1/2)",
@@ -161,13 +168,13 @@ def avalanche(distances: np.ndarray, flipped_bit: np.ndarray, nbits: int, seed_b
             "mean_distance_by_seed_bit": [None if not h else round(float(v), 4) for v, h in zip(mean_j, have)],
             "method": "Bonferroni minimum of the pooled binomial and the Sidak minimum over flipped bits",
         },
-    }
+    })
 
 
 # --------------------------------------------------------------------------------------- cross-correlation
 
 
-def cross_correlation(z: np.ndarray, lags: int, pair_seeds: np.ndarray | None = None) -> dict[str, Any] | None:
+def cross_correlation(z: np.ndarray, lags: int, pair_seeds: np.ndarray | None = None) -> CheckResult | None:
     """Lagged correlation between the streams of adjacent seeds, from the z-scores of
     :func:`rngassay.seeds.kernels.cross_z` (one row per pair, one column per lag -L..L).
 
@@ -192,7 +199,7 @@ def cross_correlation(z: np.ndarray, lags: int, pair_seeds: np.ndarray | None = 
     worst_pair = None
     if pair_seeds is not None and len(pair_seeds):
         worst_pair = [int(pair_seeds[idx[0], 0]), int(pair_seeds[idx[0], 1])]
-    return {
+    return _result("cross-correlation", {
         "p_value": p,
         "statistic": zmax,
         "null": f"N(0,1) per pair and lag; chi2(df={npairs}) per lag",
@@ -203,7 +210,7 @@ def cross_correlation(z: np.ndarray, lags: int, pair_seeds: np.ndarray | None = 
             "worst_lag_sum_squares": float(q[lw]), "worst_lag": lw - lags,
             "method": "Bonferroni minimum of Sidak max |z| and the per-lag chi-square minimum",
         },
-    }
+    })
 
 
 # ------------------------------------------------------------------------------------- duplicates/overlaps
@@ -218,7 +225,7 @@ def overlaps(
     lo: np.ndarray,
     spacing: int,
     stream_bytes: int,
-) -> dict[str, Any]:
+) -> CheckResult:
     """Identical streams and streams that overlap (one is a shifted copy of part of another).
 
     ``digests``: SHA-256 of each seed's stream; (rows, pos, hi, lo): the content-selected 16-byte windows
@@ -275,7 +282,7 @@ def overlaps(
         p = stats.clip_p(min(1.0, bound))
     else:
         p = 1.0
-    return {
+    return _result("duplicates and overlaps", {
         "p_value": p,
         "statistic": float(found),
         "null": "no equal 128-bit windows across seeds (birthday bound)",
@@ -289,7 +296,7 @@ def overlaps(
                     "stream of seed_a from byte s (negative s: the other way round); the count of overlapping "
                     "pairs is a lower bound (only neighbours in sorted window order are paired)",
         },
-    }
+    })
 
 
 def overlap_detection_length(spacing: int, miss: float = 1e-3) -> int:

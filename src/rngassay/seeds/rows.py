@@ -93,8 +93,8 @@ def cross_rows(sp: SweepPlan, finished: list[_Block], rows: list[CheckReport], p
     plan_rows.append(_plan_row(rid, "cross-correlation", {"lags": o.lags, "pairs": "adjacent"}, "uniforms",
                                sp.S * sp.B, max(sp.S - 1, 0)))
     if m is not None:
-        rows.append(_row(rid, "cross-correlation", {"lags": o.lags, "pairs": "adjacent"}, "uniforms", m["kind"],
-                         m["statistic"], m["p_value"], 2 * sp.B * z.shape[0], z.shape[0], m["details"], m["null"],
+        rows.append(_row(rid, "cross-correlation", {"lags": o.lags, "pairs": "adjacent"}, "uniforms", m.kind,
+                         m.statistic, m.p_value, 2 * sp.B * z.shape[0], z.shape[0], m.details, m.null,
                          "lagged correlation between the uniforms of adjacent seeds' streams"))
 
 
@@ -111,10 +111,10 @@ def avalanche_rows(sp: SweepPlan, tasks: SweepTasks, rows: list[CheckReport], pl
         m = M.avalanche(d, bit[take], 8 * AVALANCHE_BYTES, o.seed_bits)
         if m is not None:
             av_bytes = int(np.unique(np.concatenate([a[take], b[take]])).size) * AVALANCHE_BYTES
-            m["details"]["pairs_dropped"] = int(dropped)
-            m["details"]["pairs_dropped_why"] = "repeated pairs and pairs closing a cycle (kept pairs form a forest)"
-            rows.append(_row(rid, "avalanche", params, "bits", m["kind"], m["statistic"], m["p_value"], av_bytes,
-                             int(d.size), m["details"], m["null"],
+            m.details["pairs_dropped"] = int(dropped)
+            m.details["pairs_dropped_why"] = "repeated pairs and pairs closing a cycle (kept pairs form a forest)"
+            rows.append(_row(rid, "avalanche", params, "bits", m.kind, m.statistic, m.p_value, av_bytes,
+                             int(d.size), m.details, m.null,
                              "seed avalanche: output bits changed by flipping one seed bit"))
     plan_rows.append(_plan_row(rid, "avalanche", params, "bits", int(a.size) * 2 * AVALANCHE_BYTES, int(a.size)))
     return av_bytes
@@ -134,10 +134,10 @@ def overlap_rows(sp: SweepPlan, finished: list[_Block], idx_seeds: np.ndarray, r
     pos_of = np.full(S, -1, dtype=np.int64)
     pos_of[idx_seeds] = np.arange(Sd)
     m = M.overlaps(sp.seeds[idx_seeds], dig, pos_of[an[0]], an[1], an[2], an[3], sp.spacing, B)
-    m["details"]["found_with_probability_0.999"] = (
+    m.details["found_with_probability_0.999"] = (
         f"overlaps of at least {M.overlap_detection_length(sp.spacing)} bytes (about)")
-    rows.append(_row(rid, "overlaps", params, "bytes", m["kind"], m["statistic"], m["p_value"], Sd * B, Sd,
-                     m["details"], m["null"], "identical streams and streams that are shifted copies"))
+    rows.append(_row(rid, "overlaps", params, "bytes", m.kind, m.statistic, m.p_value, Sd * B, Sd,
+                     m.details, m.null, "identical streams and streams that are shifted copies"))
 
 
 def early_rows(sp: SweepPlan, finished: list[_Block], Sd: int, rows: list[CheckReport], plan_rows: list[dict]) -> None:
@@ -151,9 +151,9 @@ def early_rows(sp: SweepPlan, finished: list[_Block], Sd: int, rows: list[CheckR
     if m is None:
         sp.notes.append("early bytes: needs at least 10 seeds")
         return
-    params = {"positions": P, "cells": m["details"]["cells"]}
-    rows.append(_row(rid, "early-bytes", params, "bytes", m["kind"], m["statistic"], m["p_value"], Sd * P,
-                     Sd, m["details"], m["null"], "distribution of each early output byte across seeds"))
+    params = {"positions": P, "cells": m.details["cells"]}
+    rows.append(_row(rid, "early-bytes", params, "bytes", m.kind, m.statistic, m.p_value, Sd * P,
+                     Sd, m.details, m.null, "distribution of each early output byte across seeds"))
 
 
 def _coarse(ps: list[float]) -> str | None:
