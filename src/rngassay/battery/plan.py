@@ -106,6 +106,41 @@ def _matches(spec: CheckSpec, cid: str, patterns: list[str]) -> bool:
     return matches(spec.key, spec.family, cid, patterns)
 
 
+def plan_params(key: str, spec: CheckSpec, fmt: Format, param_sets: list[dict], n_avail: int, per_value: float,
+                replicates: int, *, windows: bool, checks: list[str] | None, skip: list[str] | None,
+                skipped: list[str], first_only: bool = False) -> list[PlannedCheck]:
+    """One check's runs for ``n_avail`` view values per replicate (the rule the battery and the seed sweep share):
+    its parameter sets (and their bit windows), the resolution its values have, the selection, the data each run
+    needs; ``first_only``: the first run that qualifies. Why a run is left out goes to ``skipped``."""
+    wins = [w for w in spec.windows if windows and w in views.available_windows(fmt, spec.view)]
+    param_sets = [p for p in param_sets] + [{**p, "window": w} for w in wins for p in param_sets]
+    out: list[PlannedCheck] = []
+    for params in param_sets:
+        rp = spec.resolution_param
+        if rp and spec.view == "uniforms":
+            # the grid check judges the grid the input claims; the other resolution-aware checks the grid
+            # the values were found on (when read whole), so that a coarse grid fails once, not in each
+            bits = views.claimed_bits(fmt) if spec.judges_grid else views.float_bits(fmt)
+            params = {**params, rp: bits}
+        cid = display_id(key, params)
+        if checks and not _matches(spec, cid, checks):
+            continue
+        if skip and _matches(spec, cid, skip):
+            continue
+        need = int(spec.values_needed(params))
+        if need > n_avail:
+            skipped.append(f"{cid}: needs {need} {spec.view} values per replicate, {n_avail} available")
+            continue
+        nbytes = int(math.ceil(need * per_value))
+        if fmt.is_binary:
+            nbytes += (-nbytes) % max(8, fmt.itemsize)
+        reps = max(1, min(replicates, int(spec.max_replicates or replicates)))  # costly checks: fewer replicates
+        out.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, reps))
+        if first_only:
+            break
+    return out
+
+
 def make_plan(
     fmt: Format,
     budget_bytes: int,
@@ -178,30 +213,10 @@ def make_plan(
         if not param_sets:
             plan.skipped.append(f"{key}: needs more data per replicate than {n_avail} {spec.view} values")
             continue
-        wins = [w for w in spec.windows if windows and w in views.available_windows(fmt, spec.view)]
-        param_sets = [p for p in param_sets] + [{**p, "window": w} for w in wins for p in param_sets]
-        for params in param_sets:
-            rp = spec.resolution_param
-            if rp and spec.view == "uniforms":
-                # the grid check judges the grid the input claims; the other resolution-aware checks the grid
-                # the values were found on (when read whole), so that a coarse grid fails once, not in each
-                bits = views.claimed_bits(fmt) if spec.judges_grid else views.float_bits(fmt)
-                params = {**params, rp: bits}
-            cid = display_id(key, params)
-            if checks and not _matches(spec, cid, checks):
-                continue
-            if skip and _matches(spec, cid, skip):
-                continue
-            need = int(spec.values_needed(params))
-            if need > n_avail:
-                plan.skipped.append(f"{cid}: needs {need} {spec.view} values per replicate, {n_avail} available")
-                continue
-            nbytes = int(math.ceil(need * per_value))
-            if fmt.is_binary:
-                nbytes += (-nbytes) % max(8, fmt.itemsize)
-            reps = max(1, min(R, int(spec.max_replicates or R)))  # costly checks: fewer replicates
-            plan.checks.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, reps))
-            selected_any = True
+        planned = plan_params(key, spec, fmt, param_sets, n_avail, per_value, R, windows=windows, checks=checks,
+                              skip=skip, skipped=plan.skipped)
+        plan.checks += planned
+        selected_any = selected_any or bool(planned)
     if strict_selectors:
         _check_selectors(registry, checks, skip, plan)
     if not selected_any:

@@ -161,7 +161,7 @@ def per_seed_plan(B: int, selectors: list[str] | None) -> tuple[list[PlannedChec
     :data:`MIN_PER_SEED_BYTES` for the default subset, below which its p-values become too coarse.
     With the default subset only the first parameter set of each check is kept.
     """
-    from ..battery.plan import _matches, display_id
+    from ..battery.plan import _matches, plan_params
     from ..intake import views
 
     notes: list[str] = []
@@ -188,21 +188,12 @@ def per_seed_plan(B: int, selectors: list[str] | None) -> tuple[list[PlannedChec
         except Exception as e:  # a parameter rule must never take the sweep down
             notes.append(f"per-seed {key}: parameter rule failed ({type(e).__name__}: {e})")
             continue
-        kept = 0
-        for params in param_sets:
-            cid = display_id(key, params)
-            if not _matches(spec, cid, sel):
-                continue
-            matched = True
-            need = int(spec.values_needed(params))
-            if need > n_avail:
-                continue
-            nbytes = int(math.ceil(need * per_value))
-            nbytes += (-nbytes) % 8
-            out.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, 1))
-            kept += 1
-            if default:
-                break
+        too_big: list[str] = []
+        planned = plan_params(key, spec, _U1, param_sets, n_avail, per_value, 1, windows=False, checks=sel, skip=None,
+                              skipped=too_big, first_only=default)
+        matched = matched or bool(planned) or bool(too_big)
+        out += planned
+        kept = len(planned)
         if not kept and key in sel:
             notes.append(f"per-seed {key}: needs more than {B} bytes per seed")
     if not out and not default:
