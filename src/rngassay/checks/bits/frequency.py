@@ -32,7 +32,11 @@ def monobit_frequency(packed: np.ndarray, n_bits: int | None = None) -> CheckRes
     """
     packed, n = as_packed(packed, n_bits)
     need(n, 1, "monobit frequency")
-    ones = count_ones(packed, n)
+    return monobit_result(count_ones(packed, n), n)
+
+
+def monobit_result(ones: int, n: int) -> CheckResult:
+    """The monobit result from the number of ones among ``n`` bits (shared with the one-pass form)."""
     s = 2 * ones - n
     s_obs = abs(s) / math.sqrt(n)
     return CheckResult(
@@ -286,6 +290,11 @@ def poker_symbols(packed: np.ndarray, n_bits: int | None = None, m: int = 4) -> 
         counts = h if m == 8 else h.reshape(16, 16).sum(axis=1) + h.reshape(16, 16).sum(axis=0)
     else:
         counts = _symbol_counts(to_u64(packed, k * m), m, k)
+    return poker_result(counts, m, k)
+
+
+def poker_result(counts: np.ndarray, m: int, k: int) -> CheckResult:
+    """The poker result from the counts of ``k`` m-bit symbols (shared with the one-pass form)."""
     x = float((2**m / k) * np.sum(counts.astype(np.float64) ** 2) - k)
     df = 2**m - 1
     return CheckResult(

@@ -189,13 +189,17 @@ def check_byte_frequency(data: np.ndarray, n: int | None = None) -> CheckResult:
     """
     b = take(data, n, "byte frequency", np.uint8)
     need(b.size, 256, "byte frequency")
-    counts = byte_counts(b)
+    return byte_frequency_result(byte_counts(b), int(b.size))
+
+
+def byte_frequency_result(counts: np.ndarray, n: int) -> CheckResult:
+    """The byte frequency result from the 256 value counts of ``n`` bytes (shared with the one-pass form)."""
     x2, df, right, left = equiprobable_chi2(counts)
     lo, hi = int(np.argmin(counts)), int(np.argmax(counts))
     return CheckResult(
         name="byte frequency", statistic=x2, p_value=right, p_left=left, null=f"chi2(df={df})",
-        n=int(b.size),
-        details={"expected_per_value": b.size / 256, "rarest": [lo, int(counts[lo])],
+        n=int(n),
+        details={"expected_per_value": n / 256, "rarest": [lo, int(counts[lo])],
                  "commonest": [hi, int(counts[hi])]},
         pooled={"counts": counts},
     )
@@ -211,7 +215,12 @@ def check_u16_frequency(data: np.ndarray, n: int | None = None) -> CheckResult:
     m = b.size // 2
     need(m, 65536, "16-bit frequency (byte pairs)")
     w = b[: 2 * m].view("<u2")
-    counts = _u16_counts(w)
+    return u16_frequency_result(_u16_counts(w), m)
+
+
+def u16_frequency_result(counts: np.ndarray, m: int) -> CheckResult:
+    """The 16-bit frequency result from the 65,536 value counts of ``m`` byte pairs (shared with the one-pass
+    form)."""
     x2, df, right, left = equiprobable_chi2(counts)
     lo, hi = int(np.argmin(counts)), int(np.argmax(counts))
     return CheckResult(
