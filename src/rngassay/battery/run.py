@@ -108,11 +108,49 @@ class ViewCache:
         return self._cache[key]
 
 
+def _byte_histogram(cache: ViewCache, view: str, nbytes: int):
+    """The shared byte histogram of the first ``nbytes`` bytes of a view of this segment (made once)."""
+    from ..checks.accumulators import ByteHistogram
+
+    key = ("hist", view, nbytes)
+    if key not in cache._cache:
+        data = cache.get("bytes") if view == "bytes" else cache.get("bits")[0]
+        h = ByteHistogram()
+        h.update(data[:nbytes])
+        cache._cache[key] = h
+    return cache._cache[key]
+
+
+def _from_shared_histogram(pc: PlannedCheck, cache: ViewCache) -> CheckResult | None:
+    """Counting checks that are functions of a byte histogram (byte frequency, monobit, poker on 4- and 8-bit
+    symbols over whole bytes) share one histogram per segment: the accumulator forms of
+    :mod:`rngassay.checks.accumulators`, equal to the function forms (tested). None: not such a check."""
+    from ..checks import accumulators as A
+
+    p = pc.params
+    if "window" in p:
+        return None
+    if pc.key == "byte frequency" and pc.view == "bytes":
+        return A.ByteFrequency(_byte_histogram(cache, "bytes", int(p["n"]))).finish()
+    if pc.key in ("monobit frequency", "poker bit symbols") and pc.view == "bits":
+        packed, nbits = cache.get("bits")
+        n = min(nbits, int(p.get("n_bits", nbits)))
+        m = int(p.get("m", 8))
+        if n % 8 or (pc.key == "poker bit symbols" and (m not in (4, 8) or (n // m * m) % 8 or n // m * m != n)):
+            return None  # a partial byte: the function form counts it
+        hist = _byte_histogram(cache, "bits", n // 8)
+        return A.Monobit(hist).finish() if pc.key == "monobit frequency" else A.PokerBits(m, hist).finish()
+    return None
+
+
 def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[CheckResult]:
     """Run one planned check on one segment's views; always returns a list of results.
 
     ``spec`` is the registry entry (looked up when not given)."""
     spec = spec if spec is not None else load_all()[pc.key]
+    shared = _from_shared_histogram(pc, cache)
+    if shared is not None:
+        return [shared]
     params = dict(pc.params)
     need = pc.values
     window = params.pop("window", None)
