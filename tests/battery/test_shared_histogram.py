@@ -33,6 +33,7 @@ def test_shared_histogram_results_equal_the_function_forms(fmt_name, seed):
         assert (got.statistic, got.p_value, got.p_left, got.details) == (ref.statistic, ref.p_value, ref.p_left,
                                                                         ref.details), pc.id
         seen += 1
-    assert seen == 4  # byte frequency, monobit, poker m=4 and m=8 all took the shared path
-    hists = [k for k in cache._cache if k[0] == "hist"]
+    assert seen == 4
+    assert {k for k, spec in reg.items() if spec.from_byte_counts is not None} == set(SHARED)
+    hists = [k for k in cache._cache if k[0] == "byte counts"]
     assert len(hists) == 2  # one histogram for the bytes view, one for the bits view: four checks, two passes

@@ -107,40 +107,28 @@ class ViewCache:
             self._cache[key] = out
         return self._cache[key]
 
+    def byte_counts(self, view: str, nbytes: int) -> np.ndarray:
+        """Counts of the 256 byte values among the first ``nbytes`` bytes of the bytes or bits view (made once
+        per view and length, shared by the counting checks)."""
+        key = ("byte counts", view, nbytes)
+        if key not in self._cache:
+            from ..checks.classic.frequency import byte_counts
 
-def _byte_histogram(cache: ViewCache, view: str, nbytes: int):
-    """The shared byte histogram of the first ``nbytes`` bytes of a view of this segment (made once)."""
-    from ..checks.accumulators import ByteHistogram
-
-    key = ("hist", view, nbytes)
-    if key not in cache._cache:
-        data = cache.get("bytes") if view == "bytes" else cache.get("bits")[0]
-        h = ByteHistogram()
-        h.update(data[:nbytes])
-        cache._cache[key] = h
-    return cache._cache[key]
+            data = self.get("bytes") if view == "bytes" else self.get("bits")[0]
+            self._cache[key] = byte_counts(data[:nbytes])
+        return self._cache[key]
 
 
-def _from_shared_histogram(pc: PlannedCheck, cache: ViewCache) -> CheckResult | None:
-    """Counting checks that are functions of a byte histogram (byte frequency, monobit, poker on 4- and 8-bit
-    symbols over whole bytes) share one histogram per segment: the accumulator forms of
-    :mod:`rngassay.checks.accumulators`, equal to the function forms (tested). None: not such a check."""
-    from ..checks import accumulators as A
-
-    p = pc.params
-    if "window" in p:
+def _from_byte_counts(pc: PlannedCheck, cache: ViewCache, spec: Any) -> CheckResult | None:
+    """A counting check whose registry entry has ``from_byte_counts``, from the segment's shared byte histogram
+    (one per view and length: four counting checks, two passes). None: the check runs its function form (a
+    window, a partial byte, or parameters the counts cannot serve)."""
+    if spec.from_byte_counts is None or "window" in pc.params or pc.view not in ("bytes", "bits"):
         return None
-    if pc.key == "byte frequency" and pc.view == "bytes":
-        return A.ByteFrequency(_byte_histogram(cache, "bytes", int(p["n"]))).finish()
-    if pc.key in ("monobit frequency", "poker bit symbols") and pc.view == "bits":
-        packed, nbits = cache.get("bits")
-        n = min(nbits, int(p.get("n_bits", nbits)))
-        m = int(p.get("m", 8))
-        if n % 8 or (pc.key == "poker bit symbols" and (m not in (4, 8) or (n // m * m) % 8 or n // m * m != n)):
-            return None  # a partial byte: the function form counts it
-        hist = _byte_histogram(cache, "bits", n // 8)
-        return A.Monobit(hist).finish() if pc.key == "monobit frequency" else A.PokerBits(m, hist).finish()
-    return None
+    if pc.view == "bits" and pc.values % 8:
+        return None
+    nbytes = pc.values if pc.view == "bytes" else pc.values // 8
+    return spec.from_byte_counts(cache.byte_counts(pc.view, nbytes), pc.params)
 
 
 def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[CheckResult]:
@@ -148,7 +136,7 @@ def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[Che
 
     ``spec`` is the registry entry (looked up when not given)."""
     spec = spec if spec is not None else load_all()[pc.key]
-    shared = _from_shared_histogram(pc, cache)
+    shared = _from_byte_counts(pc, cache, spec)
     if shared is not None:
         return [shared]
     params = dict(pc.params)

@@ -3,8 +3,8 @@ check's function form on the whole segment.
 
 The first step of the one-pass engine: counting checks share one histogram. A :class:`ByteHistogram` counts the
 byte values of the chunks it is fed once; byte frequency, monobit and poker on 4- and 8-bit symbols are all
-functions of those 256 counts (monobit: ones = sum of popcount(v) h[v]; 8-bit symbols: h itself; 4-bit symbols:
-the high and low nibbles of every byte), so one histogram serves four checks. The 16-bit frequency keeps its own
+functions of those 256 counts (each check's ``from_byte_counts`` in its registry entry), so one histogram serves
+four checks; the runner uses the same functions. The 16-bit frequency keeps its own
 65,536 counts and carries an odd byte from one chunk to the next.
 
 Contract (as the function forms): ``update(chunk)`` with a 1-d uint8 array, any number of times, chunk
@@ -19,13 +19,9 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .bits._common import need as need_bits
-from .bits.frequency import monobit_result, poker_result
-from .classic.frequency import _u16_counts, byte_counts, byte_frequency_result, need, u16_frequency_result
+from .bits.frequency import monobit_from_counts, poker_from_counts
+from .classic.frequency import _u16_counts, byte_counts, byte_frequency_from_counts, need, u16_frequency_result
 from .result import CheckResult
-
-_POPCOUNT = np.array([bin(v).count("1") for v in range(256)], dtype=np.int64)
-
 
 def _as_bytes(chunk: np.ndarray) -> np.ndarray:
     a = np.ascontiguousarray(chunk).reshape(-1)
@@ -64,17 +60,14 @@ class ByteFrequency(_FromHistogram):
     """One-pass form of :func:`rngassay.checks.classic.frequency.check_byte_frequency`."""
 
     def finish(self) -> CheckResult:
-        need(self.hist.n, 256, "byte frequency")
-        return byte_frequency_result(self.hist.counts.copy(), self.hist.n)
+        return byte_frequency_from_counts(self.hist.counts)
 
 
 class Monobit(_FromHistogram):
     """One-pass form of :func:`rngassay.checks.bits.frequency.monobit_frequency` (whole bytes)."""
 
     def finish(self) -> CheckResult:
-        n = 8 * self.hist.n
-        need_bits(n, 1, "monobit frequency")
-        return monobit_result(int(_POPCOUNT @ self.hist.counts), n)
+        return monobit_from_counts(self.hist.counts)
 
 
 class PokerBits(_FromHistogram):
@@ -87,12 +80,7 @@ class PokerBits(_FromHistogram):
         self.m = m
 
     def finish(self) -> CheckResult:
-        h = self.hist.counts
-        k = 8 * self.hist.n // self.m
-        if k < 1:
-            raise InputError(f"poker needs at least {self.m} bits")
-        counts = h.copy() if self.m == 8 else h.reshape(16, 16).sum(axis=1) + h.reshape(16, 16).sum(axis=0)
-        return poker_result(counts, self.m, k)
+        return poker_from_counts(self.hist.counts, {"m": self.m})
 
 
 class U16Frequency:

@@ -46,7 +46,8 @@ class CheckSpec:
     pool          -- optional: pool(list of the replicates' ``pooled`` dicts) -> CheckResult, the check's own
                      test on the pooled sufficient statistics (when a plain chi-square on summed counts is not
                      its statistic, e.g. Good's first difference); see ``battery.grade.pool_sufficient``
-    windows, cheap, max_replicates, resolution_param, judges_grid -- how the plan runs it (see the fields)
+    windows, cheap, max_replicates, resolution_param, judges_grid, from_byte_counts -- how the plan and the
+                     runner treat it (see the fields)
     """
 
     key: str
@@ -66,6 +67,9 @@ class CheckSpec:
     max_replicates: int | None = None  # costly per byte: at most this many replicates
     resolution_param: str | None = None  # the parameter the plan sets to the values' resolution in bits
     judges_grid: bool = False  # judges the float grid itself: runs on float formats only, against the claimed bits
+    # the result from the counts of the 256 byte values of the data it reads (whole bytes of its view), so that
+    # counting checks share one histogram per segment; returns None where its parameters need more
+    from_byte_counts: Callable[[Any, dict], Any] | None = None
 
 
 REGISTRY: dict[str, CheckSpec] = {}

@@ -46,6 +46,16 @@ def monobit_result(ones: int, n: int) -> CheckResult:
     )
 
 
+_POPCOUNT = np.array([bin(v).count("1") for v in range(256)], dtype=np.int64)
+
+
+def monobit_from_counts(counts: np.ndarray, params: dict | None = None) -> CheckResult:
+    """Monobit from the 256 byte-value counts of the (whole) bytes it reads: ones = sum of popcount(v) h[v]."""
+    n = 8 * int(counts.sum())
+    need(n, 1, "monobit frequency")
+    return monobit_result(int(_POPCOUNT @ np.asarray(counts, dtype=np.int64)), n)
+
+
 def pool_monobit(pooled: list[dict]) -> CheckResult:
     """Monobit on all the replicates' bits at once: S = sum of the replicates' S, n = sum of their n.
 
@@ -305,6 +315,20 @@ def poker_result(counts: np.ndarray, m: int, k: int) -> CheckResult:
     )
 
 
+def poker_from_counts(counts: np.ndarray, params: dict | None = None) -> CheckResult | None:
+    """Poker on 8-bit symbols (the byte counts themselves) or 4-bit symbols (high and low nibbles of every
+    byte) from the byte-value counts of the whole bytes it reads; None for other m."""
+    m = int((params or {}).get("m", 4))
+    if m not in (4, 8):
+        return None
+    h = np.asarray(counts, dtype=np.int64)
+    k = 8 * int(h.sum()) // m
+    if k < 1:
+        raise InputError(f"poker needs at least {m} bits")
+    sym = h.copy() if m == 8 else h.reshape(16, 16).sum(axis=1) + h.reshape(16, 16).sum(axis=0)
+    return poker_result(sym, m, k)
+
+
 # --------------------------------------------------------------------------- registry
 
 
@@ -316,7 +340,7 @@ register(CheckSpec(
     key="monobit frequency", family="bits", title="frequency (monobit) test", view="bits",
     kind="continuous", func=monobit_frequency, values_needed=_n,
     default_params=lambda n: [{"n_bits": n}] if n >= 100 else [],
-    source=f"{SP800_22} §2.1", pool=pool_monobit,
+    source=f"{SP800_22} §2.1", pool=pool_monobit, from_byte_counts=monobit_from_counts,
     cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))
 
@@ -359,6 +383,6 @@ register(CheckSpec(
     key="poker bit symbols", family="bits", title="poker test on m-bit symbols", view="bits",
     kind="continuous", func=poker_symbols, values_needed=_n, default_params=_poker_defaults,
     both_tails=True, source="FIPS 140-2 (2001) §4.9.1 (m = 4); Pearson chi-square on m-bit symbols",
-    pool=pool_class_counts,
+    pool=pool_class_counts, from_byte_counts=poker_from_counts,
     cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))

@@ -205,6 +205,13 @@ def byte_frequency_result(counts: np.ndarray, n: int) -> CheckResult:
     )
 
 
+def byte_frequency_from_counts(counts: np.ndarray, params: dict | None = None) -> CheckResult:
+    """The byte frequency check from the 256 value counts of the bytes it reads (the shared histogram)."""
+    n = int(counts.sum())
+    need(n, 256, "byte frequency")
+    return byte_frequency_result(np.asarray(counts, dtype=np.int64).copy(), n)
+
+
 def check_u16_frequency(data: np.ndarray, n: int | None = None) -> CheckResult:
     """Frequency test on 16-bit values made from byte pairs, little-endian (b0 + 256 b1).
 
@@ -262,6 +269,7 @@ register(CheckSpec(
 register(CheckSpec(
     key="byte frequency", family="classic", title="frequency test on byte values", view="bytes",
     kind="continuous", func=check_byte_frequency, values_needed=lambda p: int(p["n"]),
+    from_byte_counts=byte_frequency_from_counts,
     default_params=lambda n: [{"n": n}] if n >= 256 * MIN_EXPECTED_DEFAULT else [],
     both_tails=True, source=f"{KNUTH} A (256 cells)",
     cheap=True,  # one fast counting pass: sees every byte of a large budget
