@@ -1,6 +1,7 @@
 """The runner computes byte frequency, monobit and poker (m = 4, 8) from one shared byte histogram per view and
-segment; the results must be exactly those of the checks' function forms (which their own tests hold against
-outside sources)."""
+segment, and the serial test (orders 1, 2) and approximate entropy from one table of cyclic 16-bit patterns; the
+results must be exactly those of the checks' function forms (which their own tests hold against outside
+sources)."""
 
 from __future__ import annotations
 
@@ -12,7 +13,8 @@ from rngassay.battery.run import ViewCache, call_check
 from rngassay.checks.catalog import load_all
 from rngassay.intake.formats import parse_format
 
-SHARED = ("byte frequency", "monobit frequency", "poker bit symbols")
+SHARED = {"byte frequency": "byte counts", "monobit frequency": "byte counts", "poker bit symbols": "byte counts",
+          "serial psi2": "cyclic 16-bit patterns", "approximate entropy": "cyclic 16-bit patterns"}
 
 
 @pytest.mark.parametrize("fmt_name, seed", [("u1", 1), ("<u4", 2), (">u8", 3)])
@@ -32,8 +34,12 @@ def test_shared_histogram_results_equal_the_function_forms(fmt_name, seed):
         ref = reg[pc.key].func(data, **pc.params)
         assert (got.statistic, got.p_value, got.p_left, got.details) == (ref.statistic, ref.p_value, ref.p_left,
                                                                         ref.details), pc.id
+        for k in ("counts", "n", "m", "order"):  # what the second level pools
+            if ref.pooled and k in ref.pooled:
+                assert np.array_equal(got.pooled[k], ref.pooled[k]), (pc.id, k)
         seen += 1
-    assert seen == 4
-    assert {k for k, spec in reg.items() if spec.from_byte_counts is not None} == set(SHARED)
-    hists = [k for k in cache._cache if k[0] == "byte counts"]
-    assert len(hists) == 2  # one histogram for the bytes view, one for the bits view: four checks, two passes
+    assert seen == 7  # byte frequency, monobit, poker m=4 and 8, serial orders 1 and 2, approximate entropy
+    assert {k: spec.table.name for k, spec in reg.items() if spec.table is not None} == SHARED
+    tables = sorted(k[1:3] for k in cache._cache if k[0] == "table")
+    # one byte histogram for the bytes view, one for the bits view, one cyclic table: seven checks, three passes
+    assert tables == [("byte counts", "bits"), ("byte counts", "bytes"), ("cyclic 16-bit patterns", "bits")]

@@ -107,28 +107,24 @@ class ViewCache:
             self._cache[key] = out
         return self._cache[key]
 
-    def byte_counts(self, view: str, nbytes: int) -> np.ndarray:
-        """Counts of the 256 byte values among the first ``nbytes`` bytes of the bytes or bits view (made once
-        per view and length, shared by the counting checks)."""
-        key = ("byte counts", view, nbytes)
+    def table(self, table: Any, view: str, n: int) -> Any:
+        """A shared table (:class:`~rngassay.checks.registry.SharedTable`) of the first ``n`` values of the bytes
+        or bits view, made once per table, view and length and shared by the checks computed from it."""
+        key = ("table", table.name, view, n)
         if key not in self._cache:
-            from ..checks.classic.frequency import byte_counts
-
             data = self.get("bytes") if view == "bytes" else self.get("bits")[0]
-            self._cache[key] = byte_counts(data[:nbytes])
+            self._cache[key] = table.make(data, n, view)
         return self._cache[key]
 
 
-def _from_byte_counts(pc: PlannedCheck, cache: ViewCache, spec: Any) -> CheckResult | None:
-    """A counting check whose registry entry has ``from_byte_counts``, from the segment's shared byte histogram
-    (one per view and length: four counting checks, two passes). None: the check runs its function form (a
-    window, a partial byte, or parameters the counts cannot serve)."""
-    if spec.from_byte_counts is None or "window" in pc.params or pc.view not in ("bytes", "bits"):
+def _from_table(pc: PlannedCheck, cache: ViewCache, spec: Any) -> CheckResult | None:
+    """A check whose registry entry has a shared ``table``, computed from the segment's table (one per table,
+    view and length: e.g. four counting checks from one byte histogram). None: the check runs its function
+    form (a window, a partial byte, or parameters the table cannot serve)."""
+    if spec.table is None or "window" in pc.params or pc.view not in ("bytes", "bits"):
         return None
-    if pc.view == "bits" and pc.values % 8:
-        return None
-    nbytes = pc.values if pc.view == "bytes" else pc.values // 8
-    return spec.from_byte_counts(cache.byte_counts(pc.view, nbytes), pc.params)
+    table = cache.table(spec.table, pc.view, pc.values)
+    return None if table is None else spec.from_table(table, pc.params)
 
 
 def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[CheckResult]:
@@ -136,7 +132,7 @@ def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[Che
 
     ``spec`` is the registry entry (looked up when not given)."""
     spec = spec if spec is not None else load_all()[pc.key]
-    shared = _from_byte_counts(pc, cache, spec)
+    shared = _from_table(pc, cache, spec)
     if shared is not None:
         return [shared]
     params = dict(pc.params)

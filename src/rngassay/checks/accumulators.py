@@ -3,7 +3,7 @@ check's function form on the whole segment.
 
 The first step of the one-pass engine: counting checks share one histogram. A :class:`ByteHistogram` counts the
 byte values of the chunks it is fed once; byte frequency, monobit and poker on 4- and 8-bit symbols are all
-functions of those 256 counts (each check's ``from_byte_counts`` in its registry entry), so one histogram serves
+functions of those 256 counts (each check's ``from_table`` in its registry entry, with ``table=BYTE_COUNTS``), so one histogram serves
 four checks; the runner uses the same functions. The 16-bit frequency keeps its own
 65,536 counts and carries an odd byte from one chunk to the next.
 

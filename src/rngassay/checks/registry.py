@@ -46,8 +46,8 @@ class CheckSpec:
     pool          -- optional: pool(list of the replicates' ``pooled`` dicts) -> CheckResult, the check's own
                      test on the pooled sufficient statistics (when a plain chi-square on summed counts is not
                      its statistic, e.g. Good's first difference); see ``battery.grade.pool_sufficient``
-    windows, cheap, max_replicates, resolution_param, judges_grid, from_byte_counts -- how the plan and the
-                     runner treat it (see the fields)
+    windows, cheap, max_replicates, resolution_param, judges_grid, table, from_table, sample -- how the plan
+                     and the runner treat it (see the fields)
     """
 
     key: str
@@ -67,9 +67,26 @@ class CheckSpec:
     max_replicates: int | None = None  # costly per byte: at most this many replicates
     resolution_param: str | None = None  # the parameter the plan sets to the values' resolution in bits
     judges_grid: bool = False  # judges the float grid itself: runs on float formats only, against the claimed bits
-    # the result from the counts of the 256 byte values of the data it reads (whole bytes of its view), so that
-    # counting checks share one histogram per segment; returns None where its parameters need more
-    from_byte_counts: Callable[[Any, dict], Any] | None = None
+    # a table several checks share (made once per segment, view and length: e.g. the 256 byte-value counts),
+    # and the check's result from it: from_table(table, params) -> CheckResult, or None where its parameters
+    # need more than the table holds (the runner then calls ``func``); must equal ``func``'s result exactly
+    table: "SharedTable | None" = None
+    from_table: Callable[[Any, dict], Any] | None = None
+    # a block check that reads a fixed sample however large the budget (its parameters cap the data it
+    # reads): why, in a few words, for the plan and the README
+    sample: str | None = None
+
+
+@dataclass(frozen=True)
+class SharedTable:
+    """A table of counts that several checks are computed from (the shared histograms of the one-pass engine).
+
+    ``make(data, n, view)`` makes it from the first ``n`` values of a check's view (``view`` "bytes": a uint8
+    array; "bits": the packed bytes, ``n`` bits); returns None when it cannot be made from them (e.g. a partial
+    byte, or another view), and the checks then run their function forms."""
+
+    name: str
+    make: Callable[[Any, int, str], Any]
 
 
 REGISTRY: dict[str, CheckSpec] = {}

@@ -17,7 +17,7 @@ from rngassay.checks.bits import (
     runs_of_bits, serial_psi2,
 )
 from rngassay.checks.bits._common import lanes_u64, to_u64
-from rngassay.checks.bits.complexity import _bm_blocks
+from rngassay.checks.bits.complexity import _bm, _bm_blocks, _bm_short
 from rngassay.checks.bits.rank import matrix_ranks
 from rngassay.checks.bits.runs import _longest_runs
 from rngassay.checks.bits.serial import pattern_counts
@@ -152,6 +152,27 @@ def test_berlekamp_massey_matches_plain(n):
     seqs.append(one)
     for bits in seqs:
         assert linear_complexity_profile_bits(*_packed(bits)) == bm_plain(list(map(int, bits)))
+
+
+@pytest.mark.parametrize("M, start", [(500, 0), (640, 7), (8191, 3), (9000, 0), (12_345, 61)])
+def test_both_berlekamp_massey_kernels_agree(M, start):
+    """_bm_short (indexed loops, short blocks) and _bm (vectorised views, long blocks) are the same algorithm;
+    the plain reference above pins the short form, and the long one must agree with it on any block."""
+    rng = np.random.default_rng(M)
+    bits = _random_bits(start + 3 * M + 64, M)
+    lfsr = list(rng.integers(0, 2, 100))
+    while len(lfsr) < M:
+        lfsr.append(lfsr[-100] ^ lfsr[-37])  # L <= 100: the update branch is rarely taken late in the block
+    bits[start + M: start + 2 * M] = lfsr[:M]
+    w = to_u64(np.packbits(bits), bits.size)
+    W = (M + 63) // 64
+    out = []
+    for kernel in (_bm_short, _bm):
+        scratch = [np.empty(W + 2, np.uint64) for _ in range(4)]
+        RS = np.empty((64, W + 2), np.uint64)
+        out.append([kernel(w, start + b * M, M, scratch[0], RS, *scratch[1:]) for b in range(3)])
+    assert out[0] == out[1]
+    assert out[0][1] <= 100 and abs(out[0][0] - M / 2) < 40
 
 
 def test_berlekamp_massey_blocks_at_unaligned_offsets():

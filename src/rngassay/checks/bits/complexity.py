@@ -114,6 +114,76 @@ def _bm(w, start, N, R, RS, C, B, T):
 
 
 @njit(cache=True)
+def _bm_short(w, start, N, R, RS, C, B, T):
+    """:func:`_bm` with plain indexed loops: the same steps and result, faster for short blocks (up to a few
+    thousand bits: 45 against 69 us a block at M = 500), where creating the 1-D views costs more than the
+    vectorised loops save (at M = 50,000 the view form is 2.6x faster)."""
+    W = (N + 63) // 64
+    allb = np.uint64(0xFFFFFFFFFFFFFFFF)
+    for i in range(W):
+        p = start + 64 * i
+        j = p >> 6
+        sh = p & 63
+        if sh == 0:
+            v = w[j]
+        else:
+            v = (w[j] << np.uint64(sh)) | (w[j + 1] >> np.uint64(64 - sh))
+        R[W - 1 - i] = v
+    if N & 63:
+        R[0] &= allb << np.uint64(64 - (N & 63))
+    R[W] = 0
+    R[W + 1] = 0
+    for i in range(W + 2):
+        RS[0, i] = R[i]
+    for sh in range(1, 64):
+        for i in range(W + 1):
+            RS[sh, i] = (R[i] >> np.uint64(sh)) | (R[i + 1] << np.uint64(64 - sh))
+        RS[sh, W + 1] = 0
+    for i in range(W + 2):
+        C[i] = 0; B[i] = 0; T[i] = 0
+    C[0] = 1
+    B[0] = 1
+    L = 0
+    m = -1
+    for n in range(N):
+        o = 64 * W - 1 - n  # as in _bm
+        row = o & 63
+        base = o >> 6
+        acc = np.uint64(0)
+        for k in range((L >> 6) + 1):
+            acc ^= C[k] & RS[row, base + k]
+        if popcount64(acc) & np.uint64(1):
+            shift = n - m
+            q = shift >> 6
+            r = shift & 63
+            newL = n + 1 - L
+            top = (max(L, newL) >> 6) + 1
+            if top > W + 1:
+                top = W + 1
+            swap = 2 * L <= n
+            if swap:
+                for k in range(top + 1):
+                    T[k] = C[k]
+            if r == 0:
+                for k in range(top + 1 - q):
+                    C[q + k] ^= B[k]
+            else:
+                C[q] ^= B[0] << np.uint64(r)
+                rl = np.uint64(r)
+                rr = np.uint64(64 - r)
+                for k in range(top - q):
+                    C[q + 1 + k] ^= (B[1 + k] << rl) | (B[k] >> rr)
+            if swap:
+                B, T = T, B
+                L = newL
+                m = n
+    return L
+
+
+SHORT_WORDS = 128  # blocks of up to 128 words (8192 bits) use _bm_short
+
+
+@njit(cache=True)
 def _bm_blocks(w, start, M, N):
     """Linear complexity of N consecutive M-bit blocks of the MSB-first sequence ``w``."""
     W = (M + 63) // 64
@@ -124,7 +194,10 @@ def _bm_blocks(w, start, M, N):
     T = np.empty(W + 2, dtype=np.uint64)
     out = np.empty(N, dtype=np.int64)
     for b in range(N):
-        out[b] = _bm(w, start + b * M, M, R, RS, C, B, T)
+        if W <= SHORT_WORDS:
+            out[b] = _bm_short(w, start + b * M, M, R, RS, C, B, T)
+        else:
+            out[b] = _bm(w, start + b * M, M, R, RS, C, B, T)
     return out
 
 

@@ -13,6 +13,7 @@ import numpy as np
 from numba import njit
 from scipy import special
 
+from rngassay.checks.classic.frequency import BYTE_COUNTS
 from rngassay.checks.registry import CheckSpec, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
@@ -340,7 +341,7 @@ register(CheckSpec(
     key="monobit frequency", family="bits", title="frequency (monobit) test", view="bits",
     kind="continuous", func=monobit_frequency, values_needed=_n,
     default_params=lambda n: [{"n_bits": n}] if n >= 100 else [],
-    source=f"{SP800_22} §2.1", pool=pool_monobit, from_byte_counts=monobit_from_counts,
+    source=f"{SP800_22} §2.1", pool=pool_monobit, table=BYTE_COUNTS, from_table=monobit_from_counts,
     cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))
 
@@ -383,6 +384,6 @@ register(CheckSpec(
     key="poker bit symbols", family="bits", title="poker test on m-bit symbols", view="bits",
     kind="continuous", func=poker_symbols, values_needed=_n, default_params=_poker_defaults,
     both_tails=True, source="FIPS 140-2 (2001) §4.9.1 (m = 4); Pearson chi-square on m-bit symbols",
-    pool=pool_class_counts, from_byte_counts=poker_from_counts,
+    pool=pool_class_counts, table=BYTE_COUNTS, from_table=poker_from_counts,
     cheap=True,  # one fast counting pass: sees every byte of a large budget
 ))

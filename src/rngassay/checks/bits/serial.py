@@ -14,7 +14,7 @@ import math
 import numpy as np
 from numba import njit
 
-from rngassay.checks.registry import CheckSpec, register
+from rngassay.checks.registry import CheckSpec, SharedTable, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
 
@@ -56,6 +56,26 @@ def pattern_counts(packed: np.ndarray, n_bits: int | None, m: int) -> np.ndarray
     return _cyclic_counts(w, n, m)
 
 
+TABLE_M = 16  # the shared table: cyclic 16-bit pattern counts
+
+
+def _cyclic_table(data: np.ndarray, n: int, view: str) -> np.ndarray | None:
+    """Cyclic 16-bit pattern counts of the first ``n`` bits of the bits view. The cyclic k-bit counts for any
+    k <= 16 are its margins (window i's first k bits are the k-bit window i: the sequence wraps the same
+    way), so one pass serves the serial test of orders 1 and 2 and approximate entropy."""
+    if view != "bits" or n < TABLE_M:
+        return None
+    return pattern_counts(data, n, TABLE_M)
+
+
+CYCLIC_PATTERNS = SharedTable("cyclic 16-bit patterns", _cyclic_table)
+
+
+def _margin(table: np.ndarray, k: int) -> np.ndarray:
+    """The cyclic k-bit counts from the cyclic 16-bit counts (first bit most significant: sum the last bits)."""
+    return table.reshape(1 << k, -1).sum(axis=1)
+
+
 def _psi2(counts: np.ndarray, n: int) -> float:
     """psi^2_m = 2^m / n * sum nu^2 - n, computed in exact integers before the division."""
     m2 = counts.size
@@ -77,10 +97,21 @@ def serial_psi2(packed: np.ndarray, n_bits: int | None = None, m: int = 16, orde
         raise InputError(f"serial psi2: m must be >= 2, got {m}")
     if order not in (1, 2):
         raise InputError(f"serial psi2: order must be 1 or 2, got {order}")
-    cm = pattern_counts(packed, n, m)
+    return _serial_from_counts(pattern_counts(packed, n, m), n, m, order)
+
+
+def _serial_from_counts(cm: np.ndarray, n: int, m: int, order: int) -> CheckResult:
     # the 2^m counts are kept until grading (R replicates, two orders): 4 bytes each where they fit
     kept = cm.astype(np.uint32) if n < 2**32 else cm
     return _serial_result(cm, n, m, order, pooled={"counts": kept, "n": n, "m": m, "order": order})
+
+
+def serial_from_table(table: np.ndarray, params: dict) -> CheckResult | None:
+    """The serial test from the shared cyclic 16-bit counts (None for m > 16)."""
+    n, m, order = int(params["n_bits"]), int(params.get("m", 16)), int(params.get("order", 1))
+    if not 2 <= m <= TABLE_M or order not in (1, 2):
+        return None
+    return _serial_from_counts(_margin(table, m), n, m, order)
 
 
 def _serial_result(cm: np.ndarray, n: int, m: int, order: int, pooled: dict | None = None,
@@ -145,6 +176,15 @@ def approximate_entropy(packed: np.ndarray, n_bits: int | None = None, m: int = 
     return _apen_result(counts, n, m, pooled={"counts": counts, "n": n, "m": m})
 
 
+def apen_from_table(table: np.ndarray, params: dict) -> CheckResult | None:
+    """Approximate entropy from the shared cyclic 16-bit counts (None for m + 1 > 16)."""
+    n, m = int(params["n_bits"]), int(params.get("m", 10))
+    if not 1 <= m or m + 1 > TABLE_M:
+        return None
+    counts = _margin(table, m + 1)
+    return _apen_result(counts, n, m, pooled={"counts": counts, "n": n, "m": m})
+
+
 def _apen_result(counts: np.ndarray, n: int, m: int, pooled: dict | None = None,
                  extra: dict | None = None) -> CheckResult:
     """Approximate entropy statistic from the cyclic (m+1)-bit pattern counts of n bits (§2.12.4)."""
@@ -189,6 +229,7 @@ register(CheckSpec(
     key="serial psi2", family="bits", title="serial test (psi-squared)", view="bits",
     kind="continuous", func=serial_psi2, values_needed=lambda p: int(p["n_bits"]),
     default_params=_serial_defaults, source=f"Good (1953); {SP800_22} §2.11", pool=pool_serial_psi2,
+    table=CYCLIC_PATTERNS, from_table=serial_from_table,
     notes="two registered variants: order=1 (P1) and order=2 (P2)",
 ))
 
@@ -205,5 +246,5 @@ register(CheckSpec(
     key="approximate entropy", family="bits", title="approximate entropy test", view="bits",
     kind="continuous", func=approximate_entropy, values_needed=lambda p: int(p["n_bits"]),
     default_params=_apen_defaults, source=f"Pincus & Singer (1996); {SP800_22} §2.12",
-    pool=pool_approximate_entropy,
+    pool=pool_approximate_entropy, table=CYCLIC_PATTERNS, from_table=apen_from_table,
 ))

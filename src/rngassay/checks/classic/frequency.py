@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 from numba import njit
 
-from rngassay.checks.registry import CheckSpec, check_id, register
+from rngassay.checks.registry import CheckSpec, SharedTable, check_id, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
 from rngassay.stats import chi2_tails, chisquare_gof
@@ -205,6 +205,18 @@ def byte_frequency_result(counts: np.ndarray, n: int) -> CheckResult:
     )
 
 
+def _byte_table(data: np.ndarray, n: int, view: str) -> np.ndarray | None:
+    """Counts of the 256 byte values of the first ``n`` values of the bytes view, or of the first ``n`` bits
+    of the bits view (whole bytes only: None for a partial byte)."""
+    if view == "bits":
+        return byte_counts(data[: n // 8]) if n % 8 == 0 else None
+    return byte_counts(data[:n]) if view == "bytes" else None
+
+
+# the 256 byte-value counts: byte frequency, monobit and poker on 4- and 8-bit symbols are functions of them
+BYTE_COUNTS = SharedTable("byte counts", _byte_table)
+
+
 def byte_frequency_from_counts(counts: np.ndarray, params: dict | None = None) -> CheckResult:
     """The byte frequency check from the 256 value counts of the bytes it reads (the shared histogram)."""
     n = int(counts.sum())
@@ -269,7 +281,7 @@ register(CheckSpec(
 register(CheckSpec(
     key="byte frequency", family="classic", title="frequency test on byte values", view="bytes",
     kind="continuous", func=check_byte_frequency, values_needed=lambda p: int(p["n"]),
-    from_byte_counts=byte_frequency_from_counts,
+    table=BYTE_COUNTS, from_table=byte_frequency_from_counts,
     default_params=lambda n: [{"n": n}] if n >= 256 * MIN_EXPECTED_DEFAULT else [],
     both_tails=True, source=f"{KNUTH} A (256 cells)",
     cheap=True,  # one fast counting pass: sees every byte of a large budget
