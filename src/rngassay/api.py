@@ -19,6 +19,7 @@ from .battery.battery import run_battery, stopped_report
 from .signals import signal_guard, signal_name
 from .battery.grade import DEFAULT_ALPHA
 from .battery.plan import Plan, make_plan
+from .battery.run import auto_workers
 from .model import Report
 from .battery.conformance import DEFAULT_PIT_SEED, fit_values, read_for
 from .checks.transform.declared import parse_dist_spec, read_odds
@@ -39,7 +40,7 @@ def assay(
     checks: list[str] | None = None,
     skip: list[str] | None = None,
     alpha: float = DEFAULT_ALPHA,
-    workers: int | None = 1,
+    workers: int | str | None = 1,
     retest: bool = True,
     progress: Callable[[str], None] | None = None,
     plan_only: bool = False,
@@ -53,7 +54,9 @@ def assay(
     ``command``, ``python``, ``gen`` (with ``seed``). ``budget`` is the number of bytes to assay
     (``"64MiB"`` or an int; default 64 MiB; a file shorter than that is read whole unless ``budget``
     is given). ``checks``/``skip`` select checks by key, family or identifier. With ``plan_only`` the
-    :class:`~rngassay.battery.plan.Plan` is returned without reading any data.
+    :class:`~rngassay.battery.plan.Plan` is returned without reading any data. ``workers``: processes (None:
+    one per core; ``"auto"``: in this process for a plan of at most 8 MiB, else one per core); the results are
+    the same for any number.
 
     Bad data found mid-run (e.g. a NaN in a float stream) raises :class:`~rngassay.errors.InputError`; with
     ``partial=True`` the report of what finished is returned instead, marked incomplete, with the error in
@@ -95,6 +98,7 @@ def assay(
         plan = make_plan(f, budget_bytes, shared=shared, checks=checks, skip=skip)
         if plan_only:
             return plan
+        workers = auto_workers(plan, workers)
         settings = {"workers_used": workers, "retest": retest}
         if executor is not None:
             settings = {"executor": executor.describe(), "retest": retest}

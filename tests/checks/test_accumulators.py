@@ -9,7 +9,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from rngassay.checks.accumulators import ByteFrequency, ByteHistogram, Monobit, PokerBits, U16Frequency
+from rngassay.checks.accumulators import (ApproximateEntropy, ByteFrequency, ByteHistogram, CyclicPatterns, Monobit,
+                                         PokerBits, SerialPsi2, U16Frequency)
+from rngassay.checks.bits.serial import approximate_entropy, pattern_counts, serial_psi2
 from rngassay.checks.bits.frequency import monobit_frequency, poker_symbols
 from rngassay.checks.classic.frequency import check_byte_frequency, check_u16_frequency
 from rngassay.errors import InputError
@@ -76,3 +78,47 @@ def test_too_little_data_and_wrong_dtype_are_input_errors():
         Monobit().update(np.zeros(4, dtype=np.float64))
     with pytest.raises(InputError):
         PokerBits(5)
+
+
+@settings(max_examples=40, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), size=st.integers(2, 9000), points=st.lists(st.integers(0, 10**6),
+                                                                                  max_size=12))
+def test_cyclic_pattern_table_equals_the_function_form(seed, size, points):
+    # the table itself, on any cut, including one-byte chunks and streams shorter than four bytes
+    data = np.random.default_rng(seed).integers(0, 256, size, dtype=np.uint8)
+    acc = CyclicPatterns()
+    for chunk in _cuts(data, points):
+        acc.update(chunk)
+    assert np.array_equal(acc.table(), pattern_counts(data, 8 * size, 16))
+    one = CyclicPatterns()
+    for k in range(min(size, 40)):
+        one.update(data[k: k + 1])
+    assert np.array_equal(one.table(), pattern_counts(data[:40], 8 * min(size, 40), 16))
+
+
+@settings(max_examples=15, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), size=st.integers(2048, 70_000), points=st.lists(st.integers(0, 10**6),
+                                                                                      max_size=12))
+def test_serial_and_approximate_entropy_equal_their_function_forms(seed, size, points):
+    data = np.random.default_rng(seed).integers(0, 256, size, dtype=np.uint8)
+    tab = CyclicPatterns()
+    accs = [SerialPsi2(16, 1, tab), SerialPsi2(9, 2, tab), ApproximateEntropy(10, tab), ApproximateEntropy(3, tab)]
+    for chunk in _cuts(data, points):
+        tab.update(chunk)  # fed once for all four
+        for a in accs:
+            a.update(chunk)
+    _same(accs[0].finish(), serial_psi2(data, m=16, order=1))
+    _same(accs[1].finish(), serial_psi2(data, m=9, order=2))
+    _same(accs[2].finish(), approximate_entropy(data, m=10))
+    _same(accs[3].finish(), approximate_entropy(data, m=3))
+    own = SerialPsi2(5, 1)  # with a table of its own
+    for chunk in _cuts(data, points):
+        own.update(chunk)
+    _same(own.finish(), serial_psi2(data, m=5, order=1))
+
+
+def test_cyclic_pattern_table_refuses_too_few_bits():
+    acc = CyclicPatterns()
+    acc.update(np.array([7], dtype=np.uint8))
+    with pytest.raises(InputError):
+        acc.table()

@@ -3,7 +3,8 @@
 How the budget is spent
 -----------------------
 The budget (default 64 MiB) is cut into ``R`` disjoint segments, ``R = clamp(budget / 2 MiB, 4, 64)``
-(the replicates). Every check runs once per segment; its parameters come from its registry entry's
+(the replicates), and more when a segment would be larger than 64 MiB: a segment and its views are what a run
+holds in memory, so peak memory stays bounded at any budget. Every check runs once per segment; its parameters come from its registry entry's
 ``default_params(n)``, where ``n`` is the number of values of the check's view that one segment holds,
 and it reads only the first ``values_needed(params)`` values of that view (a check need not see every
 byte). The second level then combines the ``R`` first-level results (see :mod:`.grade`).
@@ -31,11 +32,14 @@ from ..intake.formats import Format
 
 MIN_SEGMENTS, MAX_SEGMENTS = 4, 64
 SEGMENT_UNIT = 2 << 20
+MAX_SEGMENT_BYTES = 64 << 20  # above 4 GiB the budget is cut into more than 64 segments of at most 64 MiB
 SIZE_KEYS = ("n", "n_bits", "n_values", "n_words")  # parameters that only say how much data is used
 # Above this many bytes per check (all replicates together), a check sees only the first
 # CHECK_CAP_BYTES / R bytes of each segment -- unless its registry entry says it is cheap
-# (``CheckSpec.cheap``: one fast counting pass). This keeps a large budget's cost near a
-# fixed multiple of one read pass while the cheap checks still use every byte.
+# (``CheckSpec.cheap``: one fast counting pass) or it is a block check on a fixed sample
+# (``CheckSpec.sample``: its parameters bound what it reads, whatever the budget). This keeps a
+# large budget's cost near a fixed multiple of one read pass while the cheap checks still use
+# every byte. A capped check runs on at most MAX_SEGMENTS of the segments.
 CHECK_CAP_BYTES = 64 << 20
 MIN_BUDGET_BYTES = 64 << 10  # below this the checks have too little data to say anything useful
 MIN_TEXT_VALUES = 100
@@ -51,6 +55,7 @@ class PlannedCheck:
     values: int  # view values per replicate
     bytes: int  # stream bytes (text: values) per replicate
     replicates: int
+    sample: str | None = None  # a block check's fixed sample, and why (CheckSpec.sample)
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -81,14 +86,19 @@ class Plan:
         budget = (f"{format_size(self.budget_bytes)} ({self.budget_bytes} bytes)" if self.fmt.is_binary
                   else f"{self.budget_bytes} values")
         lines = [
-            f"plan: {len(self.checks)} checks, {self.segments} replicates each, "
+            f"plan: {len(self.checks)} checks, up to {self.segments} replicates each, "
             + (f"shared segments of {self.segment_bytes} {unit}" if self.shared else "fresh data for every check"),
             f"budget {budget}; format {self.fmt.describe()}",
             "",
             f"  {'check':<52} {'family':<11} {'view':<9} {'per replicate':>14} {'replicates':>10}",
         ]
         for c in self.checks:
-            lines.append(f"  {c.id:<52} {c.family:<11} {c.view:<9} {c.bytes:>14} {c.replicates:>10}")
+            lines.append(f"  {c.id:<52} {c.family:<11} {c.view:<9} {c.bytes:>14} {c.replicates:>10}"
+                         + ("  fixed sample" if c.sample else ""))
+        fixed = {c.key: c.sample for c in self.checks if c.sample}
+        if fixed:
+            lines += ["", "fixed samples (block checks: they read this much whatever the budget):"]
+            lines += [f"  {k}: {why}" for k, why in fixed.items()]
         for s in self.skipped:
             lines.append(f"  (left out: {s})")
         return "\n".join(lines)
@@ -98,8 +108,11 @@ def display_id(key: str, params: dict[str, Any]) -> str:
     return check_id(key, {k: v for k, v in params.items() if k not in SIZE_KEYS})
 
 
-def segments_for(budget_bytes: int) -> int:
-    return max(MIN_SEGMENTS, min(MAX_SEGMENTS, budget_bytes // SEGMENT_UNIT))
+def segments_for(budget_bytes: int, binary: bool = True) -> int:
+    """Replicates for a budget: one per 2 MiB, 4 to 64; for binary budgets above 4 GiB, as many as keep every
+    segment within MAX_SEGMENT_BYTES."""
+    r = max(MIN_SEGMENTS, min(MAX_SEGMENTS, budget_bytes // SEGMENT_UNIT))
+    return max(r, -(-budget_bytes // MAX_SEGMENT_BYTES)) if binary else r
 
 
 def _matches(spec: CheckSpec, cid: str, patterns: list[str]) -> bool:
@@ -135,7 +148,7 @@ def plan_params(key: str, spec: CheckSpec, fmt: Format, param_sets: list[dict], 
         if fmt.is_binary:
             nbytes += (-nbytes) % max(8, fmt.itemsize)
         reps = max(1, min(replicates, int(spec.max_replicates or replicates)))  # costly checks: fewer replicates
-        out.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, reps))
+        out.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, reps, spec.sample))
         if first_only:
             break
     return out
@@ -170,7 +183,7 @@ def make_plan(
             "",
             "supply more values",
         )
-    R = segments or segments_for(budget_bytes)
+    R = segments or segments_for(budget_bytes, fmt.is_binary)
     if fmt.is_binary:
         seg = budget_bytes // R
         seg -= seg % max(8, fmt.itemsize)  # whole 64-bit words in every segment
@@ -199,9 +212,10 @@ def make_plan(
             plan.skipped.append(f"{key}: text floats are rounded to their printed digits, so their grid is unknown")
             continue
         per_value = views.input_bytes_per_value(fmt, spec.view)
-        seg_for_check = seg
-        if fmt.is_binary and not spec.cheap and seg * R > CHECK_CAP_BYTES:
-            seg_for_check = max(1, CHECK_CAP_BYTES // R)
+        seg_for_check, reps = seg, R
+        if fmt.is_binary and not spec.cheap and not spec.sample and seg * R > CHECK_CAP_BYTES:
+            reps = min(R, MAX_SEGMENTS)
+            seg_for_check = max(1, CHECK_CAP_BYTES // reps)
         n_avail = int(seg_for_check / per_value)
         if spec.view == "integers" and fmt.kind in ("bytes", "words"):
             n_avail = int(n_avail * 0.99)  # rejection sampling may drop a few words
@@ -213,7 +227,7 @@ def make_plan(
         if not param_sets:
             plan.skipped.append(f"{key}: needs more data per replicate than {n_avail} {spec.view} values")
             continue
-        planned = plan_params(key, spec, fmt, param_sets, n_avail, per_value, R, windows=windows, checks=checks,
+        planned = plan_params(key, spec, fmt, param_sets, n_avail, per_value, reps, windows=windows, checks=checks,
                               skip=skip, skipped=plan.skipped)
         plan.checks += planned
         selected_any = selected_any or bool(planned)

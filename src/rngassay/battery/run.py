@@ -200,6 +200,18 @@ def _run_segment_task(vals: np.ndarray, fmt: Format, checks: list[PlannedCheck],
     return out
 
 
+IN_PROCESS_BYTES = 8 << 20  # a plan reading at most this much runs in this process when workers are chosen
+
+
+def auto_workers(plan: Plan, workers: int | str | None) -> int:
+    """Worker processes for a plan: ``"auto"`` (the command line's default) is one, in this process, for a small
+    plan (starting a pool and loading the kernels into each worker costs more than it saves), otherwise one
+    per core; a number is kept. Results are the same for any number of workers."""
+    if workers != "auto":
+        return int(workers) if workers else (os.cpu_count() or 1)
+    return 1 if plan.bytes_total() <= IN_PROCESS_BYTES else (os.cpu_count() or 1)
+
+
 class _Lazy:
     """The in-process future: the task runs when its result is first asked for (so a stop signal, progress
     and the order of results behave as with a pool)."""

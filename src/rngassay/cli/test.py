@@ -19,7 +19,7 @@ from .common import (EXIT_OK, Progress, check_outputs, check_source_given, check
 @click.option("--skip", "skip", multiple=True, metavar="SEL", help="Leave out these checks (same selectors).")
 @click.option("--alpha", default=1e-3, type=float, show_default=True,
               help="Family-wise false-alarm rate of a run (Holm).")
-@click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
+@click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: one per core; a run of at most 8 MiB in this process).")
 @click.option("--no-retest", is_flag=True, help="Do not retest borderline checks on fresh data.")
 @click.option("--plan-only", is_flag=True, help="Show the plan (checks, parameters, bytes, replicates) and stop.")
 @click.option("--cluster", default=None, metavar="ADDRESS",
@@ -45,7 +45,7 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
     try:
         result = api.assay(
             spec, budget=budget, checks=split(checks), skip=split(skip), alpha=alpha,
-            workers=workers or (os.cpu_count() or 1), retest=not no_retest, progress=progress, plan_only=plan_only,
+            workers=workers or "auto", retest=not no_retest, progress=progress, plan_only=plan_only,
             cluster=cluster, partial=True,
         )
     finally:

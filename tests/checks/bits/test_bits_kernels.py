@@ -17,7 +17,7 @@ from rngassay.checks.bits import (
     runs_of_bits, serial_psi2,
 )
 from rngassay.checks.bits._common import lanes_u64, to_u64
-from rngassay.checks.bits.complexity import _bm, _bm_blocks, _bm_short
+from rngassay.checks.bits.complexity import _bm, _bm_blocks, _bm_short, bm_jobs, bm_split
 from rngassay.checks.bits.rank import matrix_ranks
 from rngassay.checks.bits.runs import _longest_runs
 from rngassay.checks.bits.serial import pattern_counts
@@ -173,6 +173,14 @@ def test_both_berlekamp_massey_kernels_agree(M, start):
         out.append([kernel(w, start + b * M, M, scratch[0], RS, *scratch[1:]) for b in range(3)])
     assert out[0] == out[1]
     assert out[0][1] <= 100 and abs(out[0][0] - M / 2) < 40
+
+
+@pytest.mark.parametrize("N", [1, 2, 7, 101])
+def test_blocks_shared_over_threads_give_the_single_thread_result(N):
+    w = to_u64(np.packbits(_random_bits(N * 500 + 64, N)), N * 500)
+    assert bm_split(w, 500, N).tolist() == _bm_blocks(w, 0, 500, N).tolist()
+    jobs = [(w, 3 * i, 500, N - 1) for i in range(5)] if N > 1 else [(w, 0, 500, 1)]
+    assert [a.tolist() for a in bm_jobs(jobs)] == [_bm_blocks(*j).tolist() for j in jobs]
 
 
 def test_berlekamp_massey_blocks_at_unaligned_offsets():

@@ -12,10 +12,10 @@ from rngassay.battery.plan import display_id
 from rngassay.checks.bits._common import bits_from_string, lanes_u64
 from rngassay.checks.bits.lanes_complexity import (
     _lc_long_defaults,
-    bm_long_blocks,
     distance_tail_log2,
     linear_complexity_long_lanes,
 )
+from rngassay.checks.bits.complexity import _bm_blocks as bm_long_blocks
 from rngassay.checks.bits.lanes_spectral import LaneParameterError
 
 

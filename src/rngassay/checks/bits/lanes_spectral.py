@@ -256,4 +256,6 @@ register(CheckSpec(
           "each Šidák-combined over 32 lanes; one block of 2^19 bits per lane (2^18 when a segment holds "
           "only 1 MiB); one replicate",
     max_replicates=1,  # 32 lanes x 2^19 bits: ~0.25-0.35 s per replicate (2^18: ~0.1 s)
+    sample="one block of 2^19 bits in each of the 32 lanes (2 MiB of words), one replicate: 32 FFTs of 2^19 "
+           "points cost about 0.3 s",
 ))

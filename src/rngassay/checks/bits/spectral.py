@@ -79,4 +79,5 @@ register(CheckSpec(
     default_params=lambda n: [{"n_bits": min(n, SPECTRAL_MAX_BITS)}] if n >= 1000 else [],
     source=f"{SP800_22} §2.6", pool=pool_spectral,
     max_replicates=4,  # costly per byte: 4 replicates are plenty
+    sample="at most 2^22 bits (512 KiB) in each of 4 replicates: one FFT of 2^22 points costs about 0.1 s",
 ))
