@@ -133,3 +133,17 @@ def test_float_formats_offer_word_and_bit_views():
     assert views.input_bytes_per_value(F8, "words32") == 8.0
     assert views.input_bytes_per_value(F8, "bits") == 0.25
     assert views.input_bytes_per_value(F4, "bits") == pytest.approx(4 / 24)
+
+
+@settings(max_examples=60, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), size=st.integers(1, 3000), grid=st.integers(0, 53),
+       claimed=st.sampled_from([8, 16, 24, 32, 53]), special_values=st.lists(st.sampled_from([0.0, 1.0, 0.5]),
+                                                                                max_size=3))
+def test_fraction_grid_kernel_equals_the_plain_numpy_rule(seed, size, grid, claimed, special_values):
+    """The one-pass kernel against the rule it implements: OR of floor(u 2^claimed), trailing zeros."""
+    u = np.floor(np.random.default_rng(seed).random(size) * 2.0**grid) / 2.0**grid
+    u = np.concatenate([u, special_values])
+    m = np.floor(u * 2.0**claimed).astype(np.uint64)
+    acc = int(np.bitwise_or.reduce(m))
+    want = 0 if acc == 0 else claimed - ((acc & -acc).bit_length() - 1)
+    assert views.fraction_grid_bits(u, claimed) == want

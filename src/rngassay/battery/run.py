@@ -108,11 +108,15 @@ class ViewCache:
         return self._cache[key]
 
     def table(self, table: Any, view: str, n: int) -> Any:
-        """A shared table (:class:`~rngassay.checks.registry.SharedTable`) of the first ``n`` values of the bytes
-        or bits view, made once per table, view and length and shared by the checks computed from it."""
+        """A shared table (:class:`~rngassay.checks.registry.SharedTable`) of the first ``n`` values of a view
+        (the bits view: its packed bytes), made once per table, view and length and shared by the checks
+        computed from it."""
+        if (table.order_free and view == "bits" and self.fmt.kind in ("bytes", "words")
+                and n % (8 * self.fmt.itemsize) == 0):
+            view, n = "bytes", n // 8  # whole words: the same bytes as the bytes view, in another order
         key = ("table", table.name, view, n)
         if key not in self._cache:
-            data = self.get("bytes") if view == "bytes" else self.get("bits")[0]
+            data = self.get("bits")[0] if view == "bits" else self.get(view)
             self._cache[key] = table.make(data, n, view)
         return self._cache[key]
 
@@ -121,7 +125,7 @@ def _from_table(pc: PlannedCheck, cache: ViewCache, spec: Any) -> CheckResult | 
     """A check whose registry entry has a shared ``table``, computed from the segment's table (one per table,
     view and length: e.g. four counting checks from one byte histogram). None: the check runs its function
     form (a window, a partial byte, or parameters the table cannot serve)."""
-    if spec.table is None or "window" in pc.params or pc.view not in ("bytes", "bits"):
+    if spec.table is None or "window" in pc.params or pc.view == "integers":
         return None
     table = cache.table(spec.table, pc.view, pc.values)
     return None if table is None else spec.from_table(table, pc.params)
@@ -134,7 +138,7 @@ def call_check(pc: PlannedCheck, cache: ViewCache, spec: Any = None) -> list[Che
     spec = spec if spec is not None else load_all()[pc.key]
     shared = _from_table(pc, cache, spec)
     if shared is not None:
-        return [shared]
+        return [shared] if isinstance(shared, CheckResult) else list(shared)
     params = dict(pc.params)
     need = pc.values
     window = params.pop("window", None)

@@ -87,6 +87,9 @@ class SharedTable:
 
     name: str
     make: Callable[[Any, int, str], Any]
+    # the table depends only on which byte values occur, not their order: the bits view of whole words (the
+    # same bytes, reordered within each word) shares the bytes view's table
+    order_free: bool = False
 
 
 REGISTRY: dict[str, CheckSpec] = {}

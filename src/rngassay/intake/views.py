@@ -153,8 +153,13 @@ def fraction_grid_bits(u: np.ndarray, claimed: int) -> int:
     of them are the bits the values do not carry."""
     if u.size == 0:
         return claimed
-    m = np.floor(np.asarray(u, dtype=np.float64) * 2.0**claimed).astype(np.uint64)
-    acc = int(np.bitwise_or.reduce(m))
+    from ._grid import or_of_scaled  # one pass, no temporaries (numba, loaded here only)
+
+    u = np.ascontiguousarray(u, dtype=np.float64)
+    acc, ok = or_of_scaled(u, 2.0**claimed)
+    if not ok:  # values outside [0, 1]: numpy's conversion, as before
+        acc = np.bitwise_or.reduce(np.floor(u * 2.0**claimed).astype(np.uint64))
+    acc = int(acc)
     if acc == 0:
         return 0
     return claimed - ((acc & -acc).bit_length() - 1)

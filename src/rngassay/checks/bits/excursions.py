@@ -15,7 +15,7 @@ import math
 import numpy as np
 from numba import njit
 
-from rngassay.checks.registry import CheckSpec, register
+from rngassay.checks.registry import CheckSpec, SharedTable, register
 from rngassay.checks.result import CheckResult
 
 from ._common import as_packed, chi2_counts, erfc_p, igamc, need
@@ -25,17 +25,30 @@ EXCURSION_STATES = (-4, -3, -2, -1, 1, 2, 3, 4)
 VARIANT_STATES = tuple(x for x in range(-9, 10) if x != 0)
 
 
+_POP8 = np.array([bin(v).count("1") for v in range(256)], dtype=np.int64)
+
+
 @njit(cache=True)
 def _walk_cycles(packed, n_bits):
     """J (number of cycles), nu[8, 6] (cycles visiting state -4..-1,1..4 exactly k = 0..4, >=5 times),
-    xi[19] (total visits to each state -9..9)."""
+    xi[19] (total visits to each state -9..9).
+
+    Far from zero (|S| >= 18) no step of the next byte can reach a counted state, so the walk moves a whole
+    byte at once (S += 2 popcount - 8); the walk spends most of its time there (|S| grows like sqrt(n))."""
     nu = np.zeros((8, 6), dtype=np.int64)
     xi = np.zeros(19, dtype=np.int64)
     cyc = np.zeros(9, dtype=np.int64)  # visits to -4..4 in the current cycle (index s + 4)
+    pop = _POP8
     s = 0
     J = 0
-    for i in range(n_bits):
+    i = 0
+    while i < n_bits:
+        if (i & 7) == 0 and i + 8 <= n_bits and (s >= 18 or s <= -18):
+            s += 2 * pop[packed[i >> 3]] - 8
+            i += 8
+            continue
         b = (packed[i >> 3] >> (7 - (i & 7))) & 1
+        i += 1
         s += 2 * b - 1
         if s == 0:
             J += 1
@@ -78,9 +91,22 @@ def random_excursions(packed: np.ndarray, n_bits: int | None = None,
     chi2(x) = sum (nu_k - J pi_k(x))^2 / (J pi_k(x)) ~ chi2(5).  Empty list if J is below
     max(min_cycles, 0.005 sqrt n) (the standard's applicability rule).
     """
+    return _excursions_result(_walk_table(packed, n_bits), min_cycles)
+
+
+def _walk_table(packed: np.ndarray, n_bits: int | None, view: str = "bits") -> tuple:
+    """(n, J, nu, xi) of the walk over the first ``n_bits`` bits: everything both excursion checks use."""
     packed, n = as_packed(packed, n_bits)
     need(n, 1, "random excursions")
-    J, nu, _ = _walk_cycles(packed, n)
+    return (n, *_walk_cycles(packed, n))
+
+
+# the walk's cycles and visits: the random excursions check and its variant are functions of them
+WALK = SharedTable("walk cycles", _walk_table)
+
+
+def _excursions_result(table: tuple, min_cycles: int = 500) -> list[CheckResult]:
+    n, J, nu, _ = table
     if J < _min_cycles(n, min_cycles):
         return []
     out = []
@@ -101,9 +127,11 @@ def random_excursions_variant(packed: np.ndarray, n_bits: int | None = None,
     xi(x) = total visits of the walk to x; under H0, given J cycles, xi(x) ~ N(J, 2 J (2|x| - 1))
     approximately; p = erfc(|xi - J| / sqrt(2 J (4|x| - 2))).  Empty list if J is too small.
     """
-    packed, n = as_packed(packed, n_bits)
-    need(n, 1, "random excursions variant")
-    J, _, xi = _walk_cycles(packed, n)
+    return _variant_result(_walk_table(packed, n_bits), min_cycles)
+
+
+def _variant_result(table: tuple, min_cycles: int = 500) -> list[CheckResult]:
+    n, J, _, xi = table
     if J < _min_cycles(n, min_cycles):
         return []
     out = []
@@ -126,6 +154,7 @@ register(CheckSpec(
     kind="continuous", func=random_excursions, values_needed=lambda p: int(p["n_bits"]),
     default_params=lambda n: [{"n_bits": n}] if n >= 1_000_000 else [],
     source=f"{SP800_22} §2.14", notes=_NOTE,
+    table=WALK, from_table=lambda t, p: _excursions_result(t, p.get("min_cycles", 500)),
 ))
 
 register(CheckSpec(
@@ -133,4 +162,5 @@ register(CheckSpec(
     kind="continuous", func=random_excursions_variant, values_needed=lambda p: int(p["n_bits"]),
     default_params=lambda n: [{"n_bits": n}] if n >= 1_000_000 else [],
     source=f"{SP800_22} §2.15", notes=_NOTE,
+    table=WALK, from_table=lambda t, p: _variant_result(t, p.get("min_cycles", 500)),
 ))

@@ -171,14 +171,41 @@ def check_equidistribution(data: np.ndarray, d: int = 16, n: int | None = None) 
         raise InputError(f"equidistribution: d must be in 2..2^24, got {d}")
     u = uniforms(data, n, "equidistribution")
     need(u.size, d, "equidistribution")
-    counts = bin_index_counts(u, d)
+    return _equidistribution_result(bin_index_counts(u, d), d, int(u.size))
+
+
+def _equidistribution_result(counts: np.ndarray, d: int, n: int) -> CheckResult:
     x2, df, right, left = equiprobable_chi2(counts)
     return CheckResult(
         name=result_name("equidistribution", {"d": d}), statistic=x2, p_value=right, p_left=left,
-        null=f"chi2(df={df})", n=int(u.size),
-        details={"d": d, "expected_per_bin": u.size / d, "counts": small_list(counts, 64)},
+        null=f"chi2(df={df})", n=n,
+        details={"d": d, "expected_per_bin": n / d, "counts": small_list(counts, 64)},
         pooled={"counts": counts},
     )
+
+
+TABLE_D = 1 << 16  # the shared table: counts of floor(2^16 u)
+
+
+def _bins_table(u: np.ndarray, n: int, view: str) -> np.ndarray | None:
+    """Counts of floor(2^16 u) over the first ``n`` uniforms. For d a power of two up to 2^16,
+    floor(d u) = floor(2^16 u) >> (16 - log2 d) exactly (scaling by a power of two is exact), so the
+    d-bin counts are sums of adjacent cells: one pass serves d = 16 and the fine d."""
+    if view != "uniforms" or n < 1:
+        return None
+    return bin_index_counts(uniforms(u, n, "equidistribution"), TABLE_D)
+
+
+UNIFORM_BINS = SharedTable("uniform bins (2^16)", _bins_table)
+
+
+def equidistribution_from_table(table: np.ndarray, params: dict) -> CheckResult | None:
+    """Equidistribution from the shared 2^16-bin counts (None for a d that does not divide 2^16)."""
+    d, n = int(params.get("d", 16)), int(params["n"])
+    if not 2 <= d <= TABLE_D or TABLE_D % d:
+        return None
+    need(n, d, "equidistribution")
+    return _equidistribution_result(table.reshape(d, -1).sum(axis=1), d, n)
 
 
 def check_byte_frequency(data: np.ndarray, n: int | None = None) -> CheckResult:
@@ -214,7 +241,7 @@ def _byte_table(data: np.ndarray, n: int, view: str) -> np.ndarray | None:
 
 
 # the 256 byte-value counts: byte frequency, monobit and poker on 4- and 8-bit symbols are functions of them
-BYTE_COUNTS = SharedTable("byte counts", _byte_table)
+BYTE_COUNTS = SharedTable("byte counts", _byte_table, order_free=True)
 
 
 def byte_frequency_from_counts(counts: np.ndarray, params: dict | None = None) -> CheckResult:
@@ -273,6 +300,7 @@ register(CheckSpec(
     key="equidistribution", family="classic", title="equidistribution (frequency) test on uniforms",
     view="uniforms", kind="continuous", func=check_equidistribution,
     values_needed=lambda p: int(p["n"]), default_params=_equidistribution_defaults, both_tails=True,
+    table=UNIFORM_BINS, from_table=equidistribution_from_table,
     source=f"{KNUTH} A",
     notes="d = 16, and a fine d (power of two, >= 32 expected per bin, <= 65536)",
     cheap=True,  # one fast counting pass: sees every byte of a large budget
