@@ -143,6 +143,16 @@ def _conv_power(p: np.ndarray, k: int) -> tuple[np.ndarray, int]:
     return out, k * lo
 
 
+@lru_cache(maxsize=32)
+def _sum_law(balls: int, urns: int, k: int) -> tuple[np.ndarray, int]:
+    """The exact law of the sum of ``k`` samples' collisions (:func:`_conv_power`), made once per process:
+    every replicate of a check has the same (balls, urns, k), and the convolutions cost far more than the
+    counting. Read-only."""
+    q, off = _conv_power(collision_pmf(balls, urns), k)
+    q.flags.writeable = False
+    return q, off
+
+
 def _tilted(logp: np.ndarray, c: np.ndarray, theta: float) -> tuple[float, float, float]:
     """log M(theta), mean and variance of the tilted law."""
     z = logp + theta * c
@@ -216,7 +226,7 @@ def collision_sum_tails(total: int, samples: int, balls: int, urns: int,
     if k == 1:
         return collision_tails(total, balls, urns)
     if method == "exact" or (method == "auto" and k <= EXACT_SUM_MAX):
-        q, off = _conv_power(p, k)
+        q, off = _sum_law(balls, urns, k)
         i = total - off
         if i < 0:
             return 1.0, P_FLOOR
