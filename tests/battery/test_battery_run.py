@@ -33,11 +33,45 @@ def test_selection_by_family_and_key():
         api.assay(gen="pcg64", budget="8MiB", plan_only=True, checks=["no-such-check"])
 
 
+def test_segments_stay_within_64_mib_and_block_checks_keep_their_fixed_sample():
+    from rngassay.battery.plan import CHECK_CAP_BYTES, MAX_SEGMENT_BYTES
+
+    for budget, segments in (("4GiB", 64), ("16GiB", 256), ("5000MiB", 79)):
+        plan = api.assay(gen="pcg64", budget=budget, plan_only=True)
+        assert plan.segments == segments and plan.segment_bytes <= MAX_SEGMENT_BYTES
+        for c in plan.checks:
+            if c.sample:  # a block check reads the same, whatever the budget
+                assert c.bytes * c.replicates <= 8 << 20, c.id
+            elif c.bytes * c.replicates > CHECK_CAP_BYTES:  # only the counting checks see whole segments
+                assert c.bytes >= plan.segment_bytes - 64 and c.replicates <= plan.segments, c.id
+            else:
+                assert c.replicates <= 64, c.id
+    small = {c.id: (c.bytes, c.replicates) for c in api.assay(gen="pcg64", budget="16MiB", plan_only=True).checks
+             if c.sample}
+    large = {c.id: (c.bytes, c.replicates) for c in api.assay(gen="pcg64", budget="16GiB", plan_only=True).checks
+             if c.sample}
+    assert small == large and len(small) == 6
+
+
 def test_workers_do_not_change_results():
     kw = dict(gen="sfc64", seed=11, budget="2MiB", checks=["classic"])
     one = api.assay(workers=1, **kw).to_dict()
     two = api.assay(workers=2, **kw).to_dict()
     assert _strip(one) == _strip(two)
+
+
+@pytest.mark.slow  # the whole battery three times on 8 MiB (~1 min)
+def test_any_workers_give_the_same_report_on_the_whole_battery(tmp_path):
+    """Every family, shared segments of a file: shared tables, Berlekamp-Massey over threads, fixed samples and
+    the process pool must not change a single result (8 MiB: the lane linear complexity runs too)."""
+    import numpy as np
+
+    p = tmp_path / "s.bin"
+    p.write_bytes(np.random.Generator(np.random.PCG64(9)).bytes(8 << 20))
+    reps = [api.assay(str(p), workers=w).to_dict() for w in (1, 2, "auto")]
+    assert reps[0]["settings"]["workers_used"] == 1 and reps[2]["settings"]["workers_used"] == 1
+    assert any(c["id"].startswith("linear complexity lanes M=50000") for c in reps[0]["checks"])
+    assert _strip(reps[0]) == _strip(reps[1]) == _strip(reps[2])
 
 
 def test_shared_file_segments_and_json_contract(tmp_path):
