@@ -186,7 +186,8 @@ def poisson_tails(k: int, mu: float) -> tuple[float, float]:
     """Exact tails of Poisson(mu): ``(P(X >= k), P(X <= k))``.
 
     Computed as ``poisson.sf(k - 1, mu)`` and ``poisson.cdf(k, mu)`` (regularised incomplete
-    gamma functions), each accurate in its own tail.
+    gamma functions), each accurate in its own tail: the functions ``scipy.special.pdtrc`` / ``pdtr`` that
+    ``scipy.stats.poisson`` evaluates for an integer k, bit for bit (tested), without its ~90 us a call.
     """
     k = _check_int("k", k)
     mu = _check_real("mu", mu)
@@ -198,8 +199,8 @@ def poisson_tails(k: int, mu: float) -> tuple[float, float]:
         return 1.0, clip_p(math.exp(-mu))
     if mu == 0.0:  # X = 0 surely, and k >= 1
         return P_FLOOR, 1.0
-    right = float(stats.poisson.sf(k - 1, mu))
-    left = float(stats.poisson.cdf(k, mu))
+    right = float(special.pdtrc(k - 1, mu))
+    left = float(special.pdtr(k, mu))
     return clip_p(right), clip_p(left)
 
 
