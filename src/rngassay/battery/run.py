@@ -292,15 +292,18 @@ class Executor:
         self.aborted = True
         stop_pool(self._pool, grace)
 
+    @property
+    def in_flight(self) -> int:
+        """Segments being checked at once while the next is read: one per worker (each worker takes a whole
+        segment, so its views and shared tables are made once, in one process)."""
+        return self.workers if self._pool is not None else 1
+
     def submit_segment(self, vals: np.ndarray, fmt: Format, checks: list[PlannedCheck], segment: int = 0) -> Any:
-        """Start checks on one segment (spread over the workers in fixed slices); see :meth:`collect`."""
-        if self._pool is None or len(checks) < 2:
+        """Start all of one segment's checks on one worker (in this process: run them now); see :meth:`collect`."""
+        if self._pool is None:
             return ("done", _run_segment_task(vals, fmt, checks, segment))
-        w = min(self.workers, len(checks))
-        # interleaved slices balance expensive and cheap checks; results are put back in plan order
-        slices = [list(range(i, len(checks), w)) for i in range(w)]
-        futs = [self._pool.submit(_run_segment_task, vals, fmt, [checks[j] for j in s], segment) for s in slices]
-        return ("futures", slices, futs, len(checks))
+        fut = self._pool.submit(_run_segment_task, vals, fmt, checks, segment)
+        return ("futures", [list(range(len(checks)))], [fut], len(checks))
 
     def collect(self, handle: Any, timeout: float | None = None) -> list:
         """Results of a submitted segment, in plan order (``timeout``: seconds to wait in all)."""
@@ -342,8 +345,11 @@ def run_plan(
         if _Guard.received is not None and _Guard.depth:
             raise Interrupted(_Guard.received)
         if plan.shared:
-            # read (and hash) segment j + 1 while the workers check segment j
-            pending = None
+            # read (and hash) the next segment while the workers check the ones before it (one per worker)
+            from collections import deque
+
+            pending: deque = deque()
+            in_flight = getattr(executor, "in_flight", 1)
 
             def absorb(j: int, active: list[Outcome], handle: Any, timeout: float | None = None) -> None:
                 for o, (res, err, sec) in zip(active, executor.collect(handle, timeout)):
@@ -360,21 +366,23 @@ def run_plan(
                     vals = _read_segment(stream, plan)
                     active = [o for o in outcomes if j < o.check.replicates]
                     handle = executor.submit_segment(vals, plan.fmt, [o.check for o in active], j)
-                    if pending is not None:
-                        absorb(*pending)
-                    pending = (j, active, handle)
+                    pending.append((j, active, handle))
+                    while len(pending) > in_flight:
+                        absorb(*pending.popleft())
             except BaseException as e:
-                # keep what finished: the segment already being checked still counts (after a stop
-                # signal it gets a grace period, then the workers are terminated)
-                if pending is not None:
+                # keep what finished: the segments already being checked still count (after a stop
+                # signal they get a grace period in all, then the workers are terminated)
+                end = time.monotonic() + WORKER_GRACE_S
+                while pending:
+                    left = max(0.0, end - time.monotonic()) if isinstance(e, KeyboardInterrupt) else None
                     try:
-                        absorb(*pending, timeout=WORKER_GRACE_S if isinstance(e, KeyboardInterrupt) else None)
+                        absorb(*pending.popleft(), timeout=left)
                     except BaseException:
                         pass
-                    pending = None
+                pending.clear()
                 raise
-            if pending is not None:
-                absorb(*pending)
+            while pending:
+                absorb(*pending.popleft())
         else:
             for j in range(plan.segments):
                 if progress:
