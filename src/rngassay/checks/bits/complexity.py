@@ -42,14 +42,8 @@ def _xor_and(a, b, n):
 
 
 @njit(cache=True)
-def _bm(w, start, N, R, RS, C, B, T):
-    """Linear complexity of bits [start, start + N) of the MSB-first sequence ``w`` (Massey 1969).
-
-    Word-parallel: the block is held reversed (LSB-first) in R, so that the taps s_{n-i}, i = 0..L, line
-    up with the coefficients c_i of C (LSB-first); RS[sh] is R shifted by sh bits, so the discrepancy is
-    an aligned AND/XOR reduction of C against RS[sh], written over 1-D views so that the discrepancy and
-    the update loops vectorise (about 3x faster than an indexed loop on 2^16..2^18-bit blocks).
-    Scratch: R, C, B, T of at least W + 2 words, RS of shape (64, W + 2), W = ceil(N / 64)."""
+def _bm_setup(w, start, N, R, RS, C, B, T):
+    """The block reversed into R, its 64 shifts into RS, C, B, T cleared; returns W = ceil(N / 64)."""
     W = (N + 63) // 64
     allb = np.uint64(0xFFFFFFFFFFFFFFFF)
     for i in range(W):
@@ -71,9 +65,23 @@ def _bm(w, start, N, R, RS, C, B, T):
         for i in range(W + 1):
             RS[sh, i] = (R[i] >> np.uint64(sh)) | (R[i + 1] << np.uint64(64 - sh))
         RS[sh, W + 1] = 0
-    C[: W + 2] = 0
-    B[: W + 2] = 0
-    T[: W + 2] = 0
+    for i in range(W + 2):
+        C[i] = 0
+        B[i] = 0
+        T[i] = 0
+    return W
+
+
+@njit(cache=True)
+def _bm(w, start, N, R, RS, C, B, T):
+    """Linear complexity of bits [start, start + N) of the MSB-first sequence ``w`` (Massey 1969).
+
+    Word-parallel: the block is held reversed (LSB-first) in R, so that the taps s_{n-i}, i = 0..L, line
+    up with the coefficients c_i of C (LSB-first); RS[sh] is R shifted by sh bits, so the discrepancy is
+    an aligned AND/XOR reduction of C against RS[sh], written over 1-D views so that the discrepancy and
+    the update loops vectorise (about 3x faster than an indexed loop on 2^16..2^18-bit blocks).
+    Scratch: R, C, B, T of at least W + 2 words, RS of shape (64, W + 2), W = ceil(N / 64)."""
+    W = _bm_setup(w, start, N, R, RS, C, B, T)
     C[0] = 1
     B[0] = 1
     L = 0
@@ -120,29 +128,7 @@ def _bm_short(w, start, N, R, RS, C, B, T):
     """:func:`_bm` with plain indexed loops: the same steps and result, faster for short blocks (up to a few
     thousand bits: 45 against 69 us a block at M = 500), where creating the 1-D views costs more than the
     vectorised loops save (at M = 50,000 the view form is 2.6x faster)."""
-    W = (N + 63) // 64
-    allb = np.uint64(0xFFFFFFFFFFFFFFFF)
-    for i in range(W):
-        p = start + 64 * i
-        j = p >> 6
-        sh = p & 63
-        if sh == 0:
-            v = w[j]
-        else:
-            v = (w[j] << np.uint64(sh)) | (w[j + 1] >> np.uint64(64 - sh))
-        R[W - 1 - i] = v
-    if N & 63:
-        R[0] &= allb << np.uint64(64 - (N & 63))
-    R[W] = 0
-    R[W + 1] = 0
-    for i in range(W + 2):
-        RS[0, i] = R[i]
-    for sh in range(1, 64):
-        for i in range(W + 1):
-            RS[sh, i] = (R[i] >> np.uint64(sh)) | (R[i + 1] << np.uint64(64 - sh))
-        RS[sh, W + 1] = 0
-    for i in range(W + 2):
-        C[i] = 0; B[i] = 0; T[i] = 0
+    W = _bm_setup(w, start, N, R, RS, C, B, T)
     C[0] = 1
     B[0] = 1
     L = 0
