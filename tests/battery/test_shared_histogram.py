@@ -16,7 +16,8 @@ from rngassay.intake.formats import parse_format
 SHARED = {"byte frequency": "byte counts", "monobit frequency": "byte counts", "poker bit symbols": "byte counts",
           "serial psi2": "cyclic 16-bit patterns", "approximate entropy": "cyclic 16-bit patterns",
           "equidistribution": "uniform bins (2^16)", "random excursions": "walk cycles",
-          "random excursions variant": "walk cycles"}
+          "random excursions variant": "walk cycles", "tail count": "uniform extremes",
+          "exact endpoints": "uniform extremes"}
 
 
 @pytest.mark.parametrize("fmt_name, seed", [("u1", 1), ("<u4", 2), (">u8", 3)])
@@ -44,11 +45,12 @@ def test_shared_histogram_results_equal_the_function_forms(fmt_name, seed):
                     assert np.array_equal(got.pooled[k], ref.pooled[k]), (pc.id, k)
         seen += 1
     # byte frequency, monobit, poker m=4 and 8, serial orders 1 and 2, approximate entropy, equidistribution d=16
-    # and the fine d, random excursions and its variant
-    assert seen == 11
+    # and the fine d, random excursions and its variant, the tail counts at q = 1e-5 (both sides), exact endpoints
+    assert seen == 14
     assert {k: spec.table.name for k, spec in reg.items() if spec.table is not None} == SHARED
     tables = sorted(k[1:3] for k in cache._cache if k[0] == "table")
-    # one byte histogram, one cyclic table, one table of uniform bins, one walk: eleven checks, four passes
+    # one byte histogram, one cyclic table, one table of uniform bins, one of uniform extremes, one walk: fourteen
+    # checks, five passes
     # the bits view of whole words holds the bytes view's bytes (reordered within words): one byte histogram
     assert tables == [("byte counts", "bytes"), ("cyclic 16-bit patterns", "bits"),
-                      ("uniform bins (2^16)", "uniforms"), ("walk cycles", "bits")]
+                      ("uniform bins (2^16)", "uniforms"), ("uniform extremes", "uniforms"), ("walk cycles", "bits")]
