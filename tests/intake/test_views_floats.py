@@ -147,3 +147,17 @@ def test_fraction_grid_kernel_equals_the_plain_numpy_rule(seed, size, grid, clai
     acc = int(np.bitwise_or.reduce(m))
     want = 0 if acc == 0 else claimed - ((acc & -acc).bit_length() - 1)
     assert views.fraction_grid_bits(u, claimed) == want
+
+
+@settings(max_examples=30, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), size=st.integers(0, 5000))
+def test_uniforms_of_64_bit_words_equal_the_numpy_rule(seed, size):
+    """The one-pass kernel against numpy's (w >> 11) * 2^-53, the top 53 bits of each word (common practice)."""
+    w = np.random.default_rng(seed).integers(0, 2**64 - 1, size, dtype=np.uint64, endpoint=True)
+    w[:3] = np.array([0, 2**64 - 1, 2**11 - 1], dtype=np.uint64)[: min(3, size)]
+    want = (w >> np.uint64(11)).astype(np.float64) * 2.0**-53
+    for name in ("u1", "<u8"):
+        fmt = parse_format(name)
+        vals = w.view(np.uint8) if name == "u1" else w
+        got = views.as_uniforms(vals, fmt)
+        assert got.dtype == np.float64 and np.array_equal(got, want)

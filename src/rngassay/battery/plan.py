@@ -97,7 +97,8 @@ class Plan:
                          + ("  fixed sample" if c.sample else ""))
         fixed = {c.key: c.sample for c in self.checks if c.sample}
         if fixed:
-            lines += ["", "fixed samples (block checks: they read this much whatever the budget):"]
+            lines += ["", "fixed samples (block checks: at most this much however large the budget; less when a segment "
+                      "is smaller):"]
             lines += [f"  {k}: {why}" for k, why in fixed.items()]
         for s in self.skipped:
             lines.append(f"  (left out: {s})")

@@ -1,5 +1,5 @@
-"""The kernel of :func:`rngassay.intake.views.fraction_grid_bits` (its own module so that loading the views
-does not load numba)."""
+"""Kernels of :mod:`rngassay.intake.views` (the fraction grid, the uniforms of 64-bit words), in their own module
+so that loading the views does not load numba."""
 
 from __future__ import annotations
 
@@ -22,3 +22,14 @@ def or_of_scaled(u, scale):
             return np.uint64(0), False
         acc |= np.uint64(f)
     return acc, True
+
+
+@njit(cache=True, nogil=True)
+def top53_uniforms(w):
+    """u_i = (w_i >> 11) 2^-53 for uint64 words, in one pass without temporaries (every step exact, so the
+    values equal numpy's ``(w >> 11).astype(float64) * 2**-53``)."""
+    out = np.empty(w.size, dtype=np.float64)
+    scale = 2.0**-53
+    for i in range(w.size):
+        out[i] = float(w[i] >> np.uint64(11)) * scale
+    return out

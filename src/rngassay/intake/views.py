@@ -301,15 +301,13 @@ def as_bits(vals: np.ndarray, fmt: Format) -> tuple[np.ndarray, int]:
     return b, int(b.size) * 8
 
 
-_2_53 = 2.0**-53
-
-
 def as_uniforms(vals: np.ndarray, fmt: Format) -> np.ndarray:
     if fmt.kind in ("floats", "text-floats"):
         return vals.astype(np.float64, copy=False)
     if fmt.kind == "bytes" or (fmt.kind == "words" and fmt.itemsize == 8):
-        w = as_words64(vals, fmt)
-        return (w >> np.uint64(11)).astype(np.float64) * _2_53
+        from ._grid import top53_uniforms  # one pass, no temporaries (numba, loaded here only)
+
+        return top53_uniforms(np.ascontiguousarray(as_words64(vals, fmt)))
     if fmt.kind == "words":
         return vals.astype(np.float64) * (2.0 ** -(8 * fmt.itemsize))
     raise ValueError(f"no uniform view for {fmt.describe()}: categorical outcomes")
