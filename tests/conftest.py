@@ -11,6 +11,20 @@ class Run:
         self.code, self.out, self.err = code, out, err
 
 
+@pytest.fixture(autouse=True)
+def _signal_handlers_restored():
+    """Every test starts with the stop-signal handlers the one before it found: the command line, run
+    in-process, leaves stop signals ignored after it was stopped (by design: it is about to exit), and a test
+    that checks handler restoration must not depend on which test ran before it in the same worker."""
+    import signal
+
+    names = [s for s in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, s)]
+    saved = {s: signal.getsignal(getattr(signal, s)) for s in names}
+    yield
+    for s, h in saved.items():
+        signal.signal(getattr(signal, s), h if h is not None else signal.SIG_DFL)
+
+
 @pytest.fixture
 def run_cli(capsys, monkeypatch):
     """Run the CLI in-process; stdin may be given as bytes."""

@@ -13,6 +13,7 @@ from collections.abc import Sequence
 import numpy as np
 from numba import njit
 
+from rngassay.checks.lawcache import kept
 from rngassay.checks.registry import CheckSpec, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
@@ -191,6 +192,7 @@ def longest_run_class_probs(M: int, v_lo: int, n_classes: int) -> np.ndarray:
 
 
 @functools.lru_cache(maxsize=8)
+@kept  # computed once per machine
 def _exact_class_probs_cached(M: int) -> tuple[float, ...]:
     v_lo, ncls, _, _ = LONGEST_RUN_TABLES[M]
     return tuple(longest_run_class_probs(M, v_lo, ncls).tolist())

@@ -17,6 +17,7 @@ from fractions import Fraction
 import numpy as np
 from numba import njit
 
+from rngassay.checks.lawcache import kept
 from rngassay.checks.registry import CheckSpec, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
@@ -148,6 +149,7 @@ def overlapping_count_probs(template: str, M: int, K: int = 5) -> np.ndarray:
 
 
 @functools.lru_cache(maxsize=64)
+@kept  # computed once per machine
 def _overlapping_count_probs(template: str, M: int, K: int) -> tuple[float, ...]:
     """Exact P(#overlapping occurrences in M fair bits = 0, 1, ..., K-1, >= K), by dynamic
     programming over the template's matching automaton (Knuth-Morris-Pratt failure links)."""

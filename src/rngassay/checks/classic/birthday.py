@@ -44,6 +44,7 @@ import numpy as np
 from numba import njit
 from scipy import special
 
+from rngassay.checks.lawcache import kept
 from rngassay.checks.registry import CheckSpec, check_id, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
@@ -165,6 +166,7 @@ def _sum_over_s(k: int, m: int, n: int) -> float:
 
 
 @lru_cache(maxsize=64)
+@kept  # about 0.4 s for the default parameters: computed once per machine
 def birthday_mean(m: int, days: int) -> float:
     """Exact E[R], R the number of repeated circular spacings of m i.i.d. uniform birthdays in ``days`` days.
 

@@ -67,6 +67,7 @@ from functools import lru_cache
 import numpy as np
 
 from rngassay.checks.classic.birthday import _stirling2_col, spacing_repeats
+from rngassay.checks.lawcache import kept
 from rngassay.checks.registry import CheckSpec, check_id, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
@@ -209,6 +210,7 @@ def _zero_part(n: int, k: float) -> float:
 
 
 @lru_cache(maxsize=64)
+@kept  # computed once per machine
 def wide_mean(n: int, cells: int) -> float:
     """Exact E[R] for n i.i.d. uniform birthdays in ``cells`` days (circular spacings).
 

@@ -38,6 +38,7 @@ from typing import Any
 import numpy as np
 from numba import njit
 
+from rngassay.checks.lawcache import kept
 from rngassay.checks.registry import CheckSpec, check_id, register
 from rngassay.checks.result import CheckResult
 from rngassay.errors import InputError
@@ -142,6 +143,7 @@ def runs_up_moments(n: int) -> tuple[list[Fraction], list[list[Fraction]]]:
 
 
 @lru_cache(maxsize=1)
+@kept  # exact fractions, about 0.3 s: computed once per machine
 def runs_up_linear_moments() -> tuple[tuple[Fraction, ...], tuple[Fraction, ...],
                                       tuple[tuple[Fraction, ...], ...], tuple[tuple[Fraction, ...], ...]]:
     """``(b, e0, S, I)`` with ``E C = n b + e0`` and ``Cov C = n S + I`` exactly for every n >= 12.
