@@ -80,6 +80,14 @@ def main() -> None:
         print(f"peak RSS of the largest process: {peak:.0f} MiB")
         print("share of check time by family: " + ", ".join(
             f"{k} {100 * v / total:.0f}%" for k, v in sorted(fam.items(), key=lambda kv: -kv[1])))
+        # the split: block checks on fixed samples against the streaming checks (CPU seconds of the
+        # checks themselves, summed over replicates and workers, against one chunked read pass)
+        fixed = {pc["id"] for pc in rep.get("plan", []) if pc.get("sample")}
+        block = sum(c.get("seconds", 0.0) for c in rep["checks"] if c["id"] in fixed)
+        stream = sum(c.get("seconds", 0.0) for c in rep["checks"] if c["id"] not in fixed)
+        print(f"check CPU time: streaming checks {stream:.1f} s = {stream / read_pass:.1f}x the chunked read pass "
+              f"({stream / read_pass / a.workers:.1f}x per worker); block checks on fixed samples {block:.1f} s "
+              f"({len(fixed)} checks)")
         slow = sorted(rep["checks"], key=lambda c: -c.get("seconds", 0))[:8]
         print("costliest checks: " + "; ".join(f"{c['id']} {c['seconds']:.1f} s" for c in slow))
         if a.latency:
