@@ -136,14 +136,32 @@ def _prepare(observed, probs, expected, sum_tol: float) -> tuple[np.ndarray, np.
     return obs, exp
 
 
+_GROUPS: dict[tuple[bytes, float], tuple[np.ndarray, tuple[tuple[int, int], ...]]] = {}
+
+
+def _groups_of(exp: np.ndarray, min_expected: float) -> tuple[np.ndarray, tuple[tuple[int, int], ...]]:
+    """(labels, (start, end) of every group) for these expected counts; remembered, because a check calls it
+    with the same expected counts in every replicate (and a seed sweep in every seed). Read-only labels."""
+    key = (exp.tobytes(), float(min_expected))
+    hit = _GROUPS.get(key)
+    if hit is None:
+        labels = pooling_groups(exp, min_expected)
+        labels.flags.writeable = False
+        starts = np.flatnonzero(np.diff(labels, prepend=-1))
+        ends = np.append(starts[1:], labels.size)
+        hit = (labels, tuple(zip(starts.tolist(), ends.tolist())))
+        if len(_GROUPS) >= 256:
+            _GROUPS.clear()
+        _GROUPS[key] = hit
+    return hit
+
+
 def _pool(obs: np.ndarray, exp: np.ndarray, min_expected: float):
-    labels = pooling_groups(exp, min_expected)
+    labels, spans = _groups_of(exp, min_expected)
     ng = int(labels[-1]) + 1
     po = np.bincount(labels, weights=obs, minlength=ng)
     pe = np.bincount(labels, weights=exp, minlength=ng)
-    starts = np.flatnonzero(np.diff(labels, prepend=-1))
-    ends = np.append(starts[1:], labels.size)
-    groups = [list(range(a, b)) for a, b in zip(starts.tolist(), ends.tolist())]
+    groups = [list(range(a, b)) for a, b in spans]
     impossible = bool(np.any((exp == 0) & (obs > 0)))
     return po, pe, groups, impossible
 

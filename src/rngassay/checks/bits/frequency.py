@@ -7,6 +7,7 @@ to m-bit symbols.
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -173,6 +174,7 @@ def _walk_extremes(packed, n_bits, bsum, bmax, bmin):
     return s, hi, lo
 
 
+@functools.lru_cache(maxsize=8192)  # a pure function of two integers: a seed sweep asks the same (z, n) often
 def cusum_p_value(z: int, n: int) -> float:
     """P(max |S_k| >= z) for the symmetric walk of n steps, SP 800-22 §2.13.4 step (4).
 
