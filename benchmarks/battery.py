@@ -36,13 +36,7 @@ def main() -> None:
     size = parse_size(a.size, "--size")
     tmp = tempfile.mkdtemp()
     path = os.path.join(tmp, "pcg64.bin")
-    rng = np.random.Generator(np.random.PCG64(1))
-    with open(path, "wb") as f:
-        left = size
-        while left:
-            n = min(left, 64 << 20)
-            f.write(rng.bytes(n))
-            left -= n
+    write_stream(path, size, np.random.Generator(np.random.PCG64(1)))
     try:
         for _ in range(2):  # the second pass is the one with a warm page cache
             read_pass = _chunked_read(path)
@@ -96,6 +90,16 @@ def main() -> None:
         for f in os.listdir(tmp):
             os.unlink(os.path.join(tmp, f))
         os.rmdir(tmp)
+
+
+def write_stream(path: str, size: int, rng: np.random.Generator) -> None:
+    """``size`` bytes of the generator's output to ``path``, in 64 MiB pieces (bounded memory)."""
+    with open(path, "wb") as f:
+        left = size
+        while left:
+            n = min(left, 64 << 20)
+            f.write(rng.bytes(n))
+            left -= n
 
 
 def _chunked_read(path: str, chunk: int = 8 << 20) -> float:

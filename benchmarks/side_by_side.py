@@ -21,6 +21,8 @@ import time
 
 import numpy as np
 
+from battery import _chunked_read, write_stream  # benchmarks/battery.py (this folder is on sys.path)
+
 
 def main() -> None:
     from rngassay.sizes import parse_size
@@ -38,12 +40,7 @@ def main() -> None:
     for label in a.sizes.split(","):
         size = parse_size(label, "--sizes")
         path = os.path.join(tmp, f"{label}.bin")
-        with open(path, "wb") as f:
-            left = size
-            while left:
-                n = min(left, 64 << 20)
-                f.write(rng.bytes(n))
-                left -= n
+        write_stream(path, size, rng)
         files[label] = path
     best: dict[tuple[str, str], float] = {}
     try:
@@ -60,13 +57,7 @@ def main() -> None:
         for label in files:
             print(f"{label}: old {best[('old', label)]:.2f} s, new {best[('new', label)]:.2f} s (best of {a.rounds})")
         big = max(files.values(), key=os.path.getsize)
-        t = time.perf_counter()
-        with open(big, "rb", buffering=0) as f:
-            buf = bytearray(8 << 20)
-            view = memoryview(buf)
-            while n := f.readinto(view):
-                np.frombuffer(buf, dtype=np.uint8, count=n).sum()
-        print(f"one chunked read pass over {os.path.basename(big)}: {time.perf_counter() - t:.2f} s")
+        print(f"one chunked read pass over {os.path.basename(big)}: {_chunked_read(big):.2f} s")
     finally:
         for p in files.values():
             os.unlink(p)

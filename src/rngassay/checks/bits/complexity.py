@@ -72,6 +72,18 @@ def _bm_setup(w, start, N, R, RS, C, B, T):
     return W
 
 
+@njit(cache=True, inline="always")
+def _bm_step(n, m, L, W):
+    """The update's shape at a nonzero discrepancy: C <- C + x^(n-m) B, with shift n - m = 64 q + r; the new
+    length; the top word touched; whether B takes the old C (2L <= n)."""
+    shift = n - m
+    newL = n + 1 - L
+    top = (max(L, newL) >> 6) + 1
+    if top > W + 1:
+        top = W + 1
+    return shift >> 6, shift & 63, newL, top, 2 * L <= n
+
+
 @njit(cache=True)
 def _bm(w, start, N, R, RS, C, B, T):
     """Linear complexity of bits [start, start + N) of the MSB-first sequence ``w`` (Massey 1969).
@@ -90,14 +102,7 @@ def _bm(w, start, N, R, RS, C, B, T):
         o = 64 * W - 1 - n  # position of s_n in R (LSB-first); s_{n-i} is at o + i
         acc = _xor_and(C, RS[o & 63, o >> 6:], (L >> 6) + 1)
         if popcount64(acc) & np.uint64(1):
-            shift = n - m
-            q = shift >> 6
-            r = shift & 63
-            newL = n + 1 - L
-            top = (max(L, newL) >> 6) + 1
-            if top > W + 1:
-                top = W + 1
-            swap = 2 * L <= n
+            q, r, newL, top, swap = _bm_step(n, m, L, W)
             if swap:
                 T[: top + 1] = C[: top + 1]
             # C <- C + x^shift B  (deg x^shift B <= newL, so q <= top)
@@ -141,14 +146,7 @@ def _bm_short(w, start, N, R, RS, C, B, T):
         for k in range((L >> 6) + 1):
             acc ^= C[k] & RS[row, base + k]
         if popcount64(acc) & np.uint64(1):
-            shift = n - m
-            q = shift >> 6
-            r = shift & 63
-            newL = n + 1 - L
-            top = (max(L, newL) >> 6) + 1
-            if top > W + 1:
-                top = W + 1
-            swap = 2 * L <= n
+            q, r, newL, top, swap = _bm_step(n, m, L, W)
             if swap:
                 for k in range(top + 1):
                     T[k] = C[k]
