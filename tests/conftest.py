@@ -11,18 +11,31 @@ class Run:
         self.code, self.out, self.err = code, out, err
 
 
-@pytest.fixture(autouse=True)
-def _signal_handlers_restored():
-    """Every test starts with the stop-signal handlers the one before it found: the command line, run
-    in-process, leaves stop signals ignored after it was stopped (by design: it is about to exit), and a test
-    that checks handler restoration must not depend on which test ran before it in the same worker."""
+def _stop_handlers() -> dict:
     import signal
 
-    names = [s for s in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, s)]
-    saved = {s: signal.getsignal(getattr(signal, s)) for s in names}
-    yield
-    for s, h in saved.items():
+    return {s: signal.getsignal(getattr(signal, s)) for s in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, s)}
+
+
+_ORIGINAL_STOP_HANDLERS = _stop_handlers()  # as this test process found them
+
+
+def _set_stop_handlers(handlers: dict) -> None:
+    import signal
+
+    for s, h in handlers.items():
         signal.signal(getattr(signal, s), h if h is not None else signal.SIG_DFL)
+
+
+@pytest.fixture(autouse=True)
+def _signal_handlers_restored():
+    """Every test starts and ends with the stop-signal handlers this test process started with. The command
+    line, run in-process, leaves stop signals ignored after it was stopped (by design: it is about to exit), and
+    a module's fixtures (e.g. a Dask cluster) may change them; a test that checks handler restoration must not
+    depend on which test ran before it in the same worker."""
+    _set_stop_handlers(_ORIGINAL_STOP_HANDLERS)
+    yield
+    _set_stop_handlers(_ORIGINAL_STOP_HANDLERS)
 
 
 @pytest.fixture
