@@ -29,10 +29,10 @@ def _set_stop_handlers(handlers: dict) -> None:
 
 @pytest.fixture(autouse=True)
 def _signal_handlers_restored():
-    """Every test starts and ends with the stop-signal handlers this test process started with. The command
+    """Every test starts and ends with the stop-signal handlers this test process started with: the command
     line, run in-process, leaves stop signals ignored after it was stopped (by design: it is about to exit), and
-    a module's fixtures (e.g. a Dask cluster) may change them; a test that checks handler restoration must not
-    depend on which test ran before it in the same worker."""
+    no test should depend on which test ran before it in the same worker. (A process started as a background
+    job of a non-interactive shell starts with SIGINT ignored; that is what it keeps.)"""
     _set_stop_handlers(_ORIGINAL_STOP_HANDLERS)
     yield
     _set_stop_handlers(_ORIGINAL_STOP_HANDLERS)
