@@ -275,3 +275,16 @@ def test_control_characters_never_reach_the_html_raw():
 
     assert _e("a\x1b[31mb\x07c<") == "a\\x1b[31mb\\x07c&lt;"
     assert "\x1b" not in _e("x\x1by") and _e("plain") == "plain"
+
+
+def test_fixed_samples_are_listed_once_with_their_reason_and_escaped(report, fast_figures):
+    assert "fixed sample" not in render_html(report)  # no block check in the plan: no list
+    report.plan.append({"id": "linear complexity M=500", "key": "linear complexity", "family": "bits",
+                        "params": {"M": 500}, "view": "bits", "bytes": 512000, "replicates": 4,
+                        "sample": "at most 8192 blocks <of> M=500 bits"})
+    report.plan.append({"id": "linear complexity M=500 window=x", "key": "linear complexity", "family": "bits",
+                        "params": {"M": 500}, "view": "bits", "bytes": 512000, "replicates": 4,
+                        "sample": "at most 8192 blocks <of> M=500 bits"})
+    out = render_html(report)
+    assert "read a fixed sample" in out
+    assert out.count("at most 8192 blocks &lt;of&gt; M=500 bits") == 1  # one line per check key, escaped

@@ -284,6 +284,14 @@ def _plan(r: Report) -> list[str]:
             "</tr>"
         )
     out.append("</tbody></table></div>")
+    fixed: dict[str, str] = {}
+    for item in r.plan:
+        if isinstance(item, dict) and item.get("sample"):
+            fixed.setdefault(str(item.get("key") or item.get("id", "")), str(item["sample"]))
+    if fixed:
+        out.append("<p>Block checks read a fixed sample (at most this much, however large the budget):</p>")
+        out.append('<ul class="samples">' + "".join(f"<li><b>{_e(k)}</b>: {_e(v)}</li>" for k, v in fixed.items())
+                   + "</ul>")
     return out
 
 
