@@ -33,12 +33,20 @@ def main() -> None:
     ap.add_argument("--sizes", default="1MiB,64MiB")
     a = ap.parse_args()
     if not os.path.isdir(os.path.join(a.old_src, "rngassay")):
-        raise SystemExit(f"{a.old_src}: no rngassay package there (give the src folder of another checkout)")
+        print(f"side_by_side.py: {a.old_src}: no rngassay package there (give the src folder of another checkout)",
+              file=sys.stderr)
+        raise SystemExit(2)
+    sizes = {}
+    for label in a.sizes.split(","):
+        try:
+            sizes[label] = parse_size(label, "--sizes")
+        except ValueError as e:  # InputError: one line, exit 2, before anything is written
+            print(f"side_by_side.py: {e}", file=sys.stderr)
+            raise SystemExit(2) from None
     tmp = tempfile.mkdtemp()
     files = {}
     rng = np.random.Generator(np.random.PCG64(1))
-    for label in a.sizes.split(","):
-        size = parse_size(label, "--sizes")
+    for label, size in sizes.items():
         path = os.path.join(tmp, f"{label}.bin")
         write_stream(path, size, rng)
         files[label] = path

@@ -79,3 +79,18 @@ def test_a_kept_null_law_equals_a_fresh_computation(cache):
     fresh = birthday_mean.__wrapped__.__wrapped__(512, 2**20)  # below lru_cache and the disk
     birthday_mean.cache_clear()
     assert birthday_mean(512, 2**20) == fresh
+
+
+@kept
+def odd_law(n):
+    return {"not": "keepable"} if n == 0 else n * 0.5
+
+
+def test_numpy_arguments_name_the_same_entry_and_unkeepable_values_are_returned(cache):
+    import numpy as np
+
+    assert law(np.int64(3), np.float64(0.7), "x") == law(3, 0.7, "x")
+    assert len(CALLS) == 1  # numpy scalars name the same entry as Python numbers
+    assert odd_law(0) == {"not": "keepable"} and odd_law(np.int32(4)) == 2.0
+    odd_law.forget()
+    assert odd_law(4) == 2.0

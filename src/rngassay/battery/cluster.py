@@ -177,6 +177,12 @@ class DaskExecutor(Executor):
             addr = self.address
         return f"dask {addr}"
 
+    @property
+    def in_flight(self) -> int:
+        """One segment at a time, spread over the cluster in slices (a cluster's many workers must not make this
+        process hold one segment per worker)."""
+        return 1
+
     def submit_segment(self, vals: np.ndarray, fmt, checks, segment: int = 0) -> Any:
         """Start checks on one segment, spread over the cluster in fixed interleaved slices; the segment is
         sent to the cluster once. :meth:`collect` (inherited) returns the results in plan order."""

@@ -243,7 +243,8 @@ class Executor:
 
     The one executor protocol (the Dask executor in :mod:`rngassay.battery.cluster` has it too): a context
     manager with ``workers``, ``parallel``, ``submit(fn, *args)`` returning a future (``result``, ``cancel``),
-    ``submit_segment``/``collect`` for the battery's segments, ``abort()`` and ``describe()``.
+    ``submit_segment``/``collect`` for the battery's segments and ``in_flight`` (how many segments are checked at
+    once while the next is read), ``abort()`` and ``describe()``.
     ``initializer(*initargs)`` runs in every worker process after the stop-signal set-up.
     """
 
@@ -349,7 +350,7 @@ def run_plan(
             from collections import deque
 
             pending: deque = deque()
-            in_flight = getattr(executor, "in_flight", 1)
+            in_flight = executor.in_flight
 
             def absorb(j: int, active: list[Outcome], handle: Any, timeout: float | None = None) -> None:
                 for o, (res, err, sec) in zip(active, executor.collect(handle, timeout)):
@@ -379,7 +380,6 @@ def run_plan(
                         absorb(*pending.popleft(), timeout=left)
                     except BaseException:
                         pass
-                pending.clear()
                 raise
             while pending:
                 absorb(*pending.popleft())

@@ -21,6 +21,7 @@ import functools
 import hashlib
 import inspect
 import json
+import numbers
 import os
 import tempfile
 from fractions import Fraction
@@ -39,10 +40,10 @@ def cache_dir() -> str | None:
 def _encode(v: Any) -> Any:
     if isinstance(v, bool) or v is None or isinstance(v, str):
         return v
-    if isinstance(v, int):
-        return {"int": str(v)}
-    if isinstance(v, float):
-        return v
+    if isinstance(v, numbers.Integral):  # numpy integers too
+        return {"int": str(int(v))}
+    if isinstance(v, (float, numbers.Real)) and not isinstance(v, Fraction):
+        return float(v)
     if isinstance(v, Fraction):
         return {"fraction": f"{v.numerator}/{v.denominator}"}
     if isinstance(v, (tuple, list)):
@@ -103,16 +104,23 @@ def kept(func: Callable[..., Any]) -> Callable[..., Any]:
         nonlocal memo
         if memo is None:
             memo = load()
-        key = json.dumps([_encode(a) for a in args])
+        try:
+            key = json.dumps([_encode(a) for a in args])
+        except TypeError:  # an argument the cache cannot name: just compute
+            return func(*args)
         if key in memo:
             try:
                 return _decode(memo[key])
             except (TypeError, ValueError, AttributeError):
                 pass  # a damaged entry: compute it again
         value = func(*args)
+        try:
+            encoded = _encode(value)
+        except TypeError:  # a value the cache cannot keep exactly: returned, not kept
+            return value
         fresh = load()  # entries other processes kept meanwhile
         fresh.update(memo)
-        fresh[key] = _encode(value)
+        fresh[key] = encoded
         memo = fresh
         save(memo)
         return value

@@ -159,7 +159,12 @@ def fraction_grid_bits(u: np.ndarray, claimed: int) -> int:
     acc, ok = or_of_scaled(u, 2.0**claimed)
     if not ok:  # values outside [0, 1]: numpy's conversion, as before
         acc = np.bitwise_or.reduce(np.floor(u * 2.0**claimed).astype(np.uint64))
-    acc = int(acc)
+    return grid_from_or(int(acc), claimed)
+
+
+def grid_from_or(acc: int, claimed: int) -> int:
+    """The effective resolution from the OR of floor(u 2^claimed) over the values: the trailing zeros common to
+    all of them are the bits they do not carry (0 when every value is 0)."""
     if acc == 0:
         return 0
     return claimed - ((acc & -acc).bit_length() - 1)

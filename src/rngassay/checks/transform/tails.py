@@ -215,9 +215,9 @@ def _bits_from_table(acc53: int, resolution_bits: int | None) -> tuple[int, bool
     b = int(resolution_bits)
     if not 1 <= b <= FULL_BITS:
         raise InputError(f"resolution_bits must be in 1..{FULL_BITS}, got {resolution_bits}")
-    a = acc53 >> (FULL_BITS - b)
-    grid = 0 if a == 0 else b - ((a & -a).bit_length() - 1)
-    return min(b, max(1, grid)), False
+    from rngassay.intake.views import grid_from_or
+
+    return min(b, max(1, grid_from_or(acc53 >> (FULL_BITS - b), b))), False
 
 
 def tail_from_table(table: tuple, params: dict) -> CheckResult | None:
