@@ -4,11 +4,17 @@ SIGINT, SIGTERM and SIGHUP (Ctrl-C, a CI timeout, a closed terminal) end a run e
 the first one raises :class:`Interrupted` (a KeyboardInterrupt) in the main thread, which the runner turns
 into an incomplete result; later ones are only recorded, so that grading and writing the reports marked
 incomplete cannot be cut short by a second Ctrl-C. The exit status is 128 + the signal number.
+
+A signal that arrives while numba or llvmlite is compiling or loading a kernel is only recorded: raising there
+would unwind through a C callback of the compiler and crash the process (seen as exit -11 when a stop signal
+came during the first, compiling run of a check). The run then stops at the next check of
+:func:`stop_if_signalled` (after each check in this process) or :func:`armed` (each read).
 """
 
 from __future__ import annotations
 
 import contextlib
+import os
 import signal
 import threading
 from typing import Any
@@ -35,13 +41,24 @@ class _Guard:
     depth = 0
     received: int | None = None
     deferred = False
+    pid = 0  # the process whose guard this is (a forked worker inherits the state, not the guard)
     saved: dict[int, Any] = {}
+
+
+def _in_compiler(frame: Any) -> bool:
+    """Whether the interrupted code runs inside numba or llvmlite (a kernel being compiled or loaded)."""
+    while frame is not None:
+        name = frame.f_code.co_filename.replace("\\", "/")
+        if "/numba/" in name or "/llvmlite/" in name:
+            return True
+        frame = frame.f_back
+    return False
 
 
 def _on_signal(signum: int, frame: Any) -> None:
     if _Guard.received is None:
         _Guard.received = signum
-        if not _Guard.deferred:
+        if not _Guard.deferred and not _in_compiler(frame):
             raise Interrupted(signum)
     # a second signal while the report is being made: recorded by the first, ignored
 
@@ -71,6 +88,14 @@ def defer_signals(on: bool = True) -> None:
     _Guard.deferred = on
 
 
+def stop_if_signalled() -> None:
+    """Raise :class:`Interrupted` for a stop signal that was recorded but not raised (it came while a kernel was
+    being compiled), unless signals are deferred. Only in the process that holds the guard, in its main thread."""
+    if (_Guard.received is not None and _Guard.depth and not _Guard.deferred and os.getpid() == _Guard.pid
+            and threading.current_thread() is threading.main_thread()):
+        raise Interrupted(_Guard.received)
+
+
 def received_signal() -> int | None:
     """The stop signal that arrived inside the current :func:`signal_guard`, if any."""
     return _Guard.received
@@ -88,6 +113,7 @@ def signal_guard(ignore_after_stop: bool = False):
     if _Guard.depth == 0:
         _Guard.received = None
         _Guard.deferred = False
+        _Guard.pid = os.getpid()
         _Guard.saved = {}
         for s in STOP_SIGNALS:
             try:

@@ -22,7 +22,7 @@ from ..intake import views
 from ..intake.formats import Format
 from ..intake.stream import Stream
 from ..signals import (STOP_SIGNALS, Interrupted, _Guard, armed, defer_signals,  # noqa: F401 (re-exported)
-                       received_signal, signal_guard, signal_name, signals_deferred)
+                       received_signal, signal_guard, signal_name, signals_deferred, stop_if_signalled)
 from .plan import Plan, PlannedCheck
 
 
@@ -201,6 +201,7 @@ def _run_segment_task(vals: np.ndarray, fmt: Format, checks: list[PlannedCheck],
             out.append((call_check(pc, cache), None, time.perf_counter() - t))
         except Exception as e:  # one broken check must not take the others down
             out.append((None, f"{type(e).__name__}: {e}", time.perf_counter() - t))
+        stop_if_signalled()  # in this process: a signal that came while a kernel was compiled stops here
     return out
 
 
