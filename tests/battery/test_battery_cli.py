@@ -79,6 +79,23 @@ def test_demo_writes_reports(run_cli, tmp_path):
     assert names == sorted(f"demo-{s}.{e}" for s in ("supplier", "homegrown") for e in ("json", "html", "xml"))
     home = json.loads((tmp_path / "rep" / "demo-homegrown.json").read_text())
     assert home["verdict"] == "fail"  # lcg32's low bits are caught (p < 1e-10 at this size)
+    before = {p.name: p.read_bytes() for p in (tmp_path / "rep").iterdir()}
+    again = run_cli("demo", "--budget", "512KiB", "--out", tmp_path / "rep", "--workers", "1", "-q")
+    assert again.code == 2 and "--replace" in again.err and len(again.err.strip().splitlines()) == 1
+    assert {p.name: p.read_bytes() for p in (tmp_path / "rep").iterdir()} == before  # nothing written over
+
+
+def test_demo_default_folder_is_new_each_time(tmp_path, monkeypatch):
+    from rngassay.cli.demo import _demo_folder
+
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "rngassay-demo").mkdir()  # an earlier demo's folder (or anything of that name) stays as it is
+    (tmp_path / "rngassay-demo-2").write_text("not a folder")
+    assert _demo_folder(None, False) == "rngassay-demo-3" and (tmp_path / "rngassay-demo-3").is_dir()
+    assert _demo_folder(None, False) == "rngassay-demo-4"
+    (tmp_path / "mine").mkdir()
+    (tmp_path / "mine" / "demo-supplier.html").write_text("kept")
+    assert _demo_folder("mine", True) == "mine"  # --replace: the user asked for it
 
 
 @pytest.mark.parametrize("args", [["--checks", "monobit frequency,nosuch"], ["--skip", "nosuch"], ["--checks", ","]])

@@ -18,23 +18,22 @@ DEMO_STREAMS = (
 
 @click.command()
 @click.option("--budget", default="8MiB", metavar="SIZE", show_default=True, help="Bytes each check may see.")
-@click.option("--out", "out_dir", default="reports", metavar="DIR", show_default=True, help="Folder for the reports.")
+@click.option("--out", "out_dir", default=None, metavar="DIR",
+              help="Folder for the reports (default: a new folder ./rngassay-demo, -2, -3, ...).")
+@click.option("--replace", is_flag=True, help="Write over demo reports already in --out (else refused).")
 @click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress on stderr.")
-def demo(budget: str, out_dir: str, workers: int | None, quiet: bool) -> None:
+def demo(budget: str, out_dir: str | None, workers: int | None, quiet: bool, replace: bool) -> None:
     """Run the built-in example and write its reports.
 
     Harbour Lane Lotteries, an invented operator, receives its draw randomness from an invented supplier,
     Kestrel Draw Systems, and keeps a home-grown generator for its prize-fund simulations. The demo
-    assays both (built-in generators stand in for them) and writes JSON, HTML and JUnit reports.
+    assays both (built-in generators stand in for them) and writes JSON, HTML and JUnit reports into a new
+    folder, never over files that are there already (unless --replace).
     """
     from .. import api
 
-    if not os.path.isdir(out_dir):
-        try:
-            os.makedirs(out_dir, exist_ok=True)
-        except OSError as e:
-            raise InputError(f"cannot create the report folder: {e.strerror}", out_dir, "choose another --out") from None
+    out_dir = _demo_folder(out_dir, replace)
     written = []
     for slug, title, name, seed in DEMO_STREAMS:
         progress = Progress(quiet)
@@ -51,9 +50,33 @@ def demo(budget: str, out_dir: str, workers: int | None, quiet: bool) -> None:
         out(text(report))
         out("")
         written += [p for _, p in outs]
-    out("Reports written:")
+    out(f"Reports written to {out_dir}{os.sep}:")
     for p in written:
         out(f"  {p}")
+
+
+def demo_files(out_dir: str) -> list[str]:
+    return [os.path.join(out_dir, f"demo-{slug}{ext}") for slug, *_ in DEMO_STREAMS for ext in (".json", ".html", ".xml")]
+
+
+def _demo_folder(out_dir: str | None, replace: bool) -> str:
+    """The folder the demo writes to: a new ./rngassay-demo[-N] by default; a given folder is made if missing, and
+    its demo files are written over only with ``replace`` (a checkout's committed reports/ stays as it is)."""
+    if out_dir is None:
+        out_dir, k = "rngassay-demo", 1
+        while os.path.lexists(out_dir):
+            k += 1
+            out_dir = f"rngassay-demo-{k}"
+    elif not replace:
+        there = [p for p in demo_files(out_dir) if os.path.lexists(p)]
+        if there:
+            raise InputError(f"{len(there)} demo report(s) already in the folder, e.g. {os.path.basename(there[0])}",
+                             out_dir, "give a new --out folder, or --replace to write over them")
+    try:
+        os.makedirs(out_dir, exist_ok=True)
+    except OSError as e:
+        raise InputError(f"cannot create the report folder: {e.strerror}", out_dir, "choose another --out") from None
+    return out_dir
 
 
 @click.command()
