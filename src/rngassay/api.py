@@ -87,15 +87,15 @@ def assay(
         try:
             resolved = resolve(stream, budget_req, plan_only)
             stream, f, budget_bytes = resolved.stream, resolved.stream.fmt, resolved.budget.amount
-            shared, grid_note = not stream.unlimited, resolved.grid_note
+            grid_note = resolved.grid_note
         except KeyboardInterrupt as e:
             # a stop signal while the source was read ahead (e.g. standard input): nothing was checked,
             # but the run still ends in a report -- "no verdict", marked incomplete
-            plan = make_plan(stream.fmt, budget_bytes, shared=not stream.unlimited, checks=checks, skip=skip)
+            plan = make_plan(stream.fmt, budget_bytes, checks=checks, skip=skip)
             return stopped_report(stream, plan, f"interrupted by {signal_name(getattr(e, 'signum', 2))} while "
                                   "reading the source", alpha=alpha, t0=t0,
                                   settings={"workers_used": workers, "retest": retest})
-        plan = make_plan(f, budget_bytes, shared=shared, checks=checks, skip=skip)
+        plan = make_plan(f, budget_bytes, checks=checks, skip=skip)
         if plan_only:
             return plan
         workers = auto_workers(plan, workers)
@@ -147,7 +147,7 @@ def assay_stream(
     as ``fit`` whose selectors also name checks of their own)."""
     size = stream.source.size_hint()
     budget_bytes = budget if budget is not None else (size if size is not None else DEFAULT_BUDGET)
-    plan = make_plan(stream.fmt, budget_bytes, shared=not stream.unlimited, checks=checks, skip=skip,
+    plan = make_plan(stream.fmt, budget_bytes, checks=checks, skip=skip,
                      strict_selectors=strict_selectors, windows=windows)
     return run_battery(stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
                        command=command, settings={"workers_used": workers, "retest": retest})

@@ -5,7 +5,7 @@ from rngassay.intake.formats import parse_format
 
 
 def _ids(fmt, budget=8 << 20, **kw):
-    return [c.id for c in make_plan(parse_format(fmt), budget, shared=True, **kw).checks]
+    return [c.id for c in make_plan(parse_format(fmt), budget, **kw).checks]
 
 
 def test_word_checks_also_run_on_reversed_words():

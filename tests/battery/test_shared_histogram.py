@@ -23,7 +23,7 @@ SHARED = {"byte frequency": "byte counts", "monobit frequency": "byte counts", "
 @pytest.mark.parametrize("fmt_name, seed", [("u1", 1), ("<u4", 2), (">u8", 3)])
 def test_shared_histogram_results_equal_the_function_forms(fmt_name, seed):
     fmt = parse_format(fmt_name)
-    plan = make_plan(fmt, 4 << 20, shared=True)
+    plan = make_plan(fmt, 4 << 20)
     raw = np.random.default_rng(seed).integers(0, 256, 1 << 20, dtype=np.uint8)
     vals = raw.view(fmt.dtype) if fmt.itemsize > 1 else raw
     cache = ViewCache(vals, fmt)

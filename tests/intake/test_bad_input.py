@@ -272,7 +272,7 @@ def test_python_generator_dying_mid_run(run_cli, tmp_path):
         "    state = {'n': 0}\n"
         "    def draw(n):\n"
         "        state['n'] += n\n"
-        "        if state['n'] > 30 << 20:\n"
+        "        if state['n'] > 600 << 10:  # in the third of four segments\n"
         "            raise OSError('device gone')\n"
         "        return bg.random_raw(-(-n // 8)).astype('<u8')\n"
         "    return draw\n"

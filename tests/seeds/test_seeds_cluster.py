@@ -100,16 +100,16 @@ def test_cluster_report_equals_serial(client, serial_report):
     assert _comparable(r) == _comparable(serial_report)
 
 
-@pytest.mark.parametrize("shared", [True, False], ids=["file-like", "generator"])
-def test_dask_executor_runs_the_battery_like_the_local_one(client, shared):
+@pytest.mark.parametrize("finite", [True, False], ids=["file-like", "generator"])
+def test_dask_executor_runs_the_battery_like_the_local_one(client, finite):
     from rngassay.intake.sources import BuiltinSource
 
     data = np.random.default_rng(3).integers(0, 256, 1 << 20, dtype=np.uint8)
     fmt = parse_format("u1")
-    plan = make_plan(fmt, data.size, shared=shared, checks=["classic"])
+    plan = make_plan(fmt, data.size, checks=["classic"])
 
-    def stream():  # a finite stream (checks share segments) or a generator (fresh data per check)
-        return Stream(_BytesSource("x", data), fmt) if shared else Stream(BuiltinSource("pcg64", 7), fmt)
+    def stream():  # a finite stream or a generator (checks share segments either way)
+        return Stream(_BytesSource("x", data), fmt) if finite else Stream(BuiltinSource("pcg64", 7), fmt)
 
     def run(ex):
         with ex:

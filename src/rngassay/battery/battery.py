@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import time
 from typing import Any, Callable
 
@@ -65,7 +66,9 @@ def run_battery(
                 if progress:
                     progress(f"retesting {len(todo)} borderline check(s) on fresh data")
                 try:  # (run_plan can be interrupted like the first round)
-                    outs2, complete2, reason2, err2 = run_plan(stream, plan, ex, checks=todo, progress=progress)
+                    # segments as long as the retested checks need, not a whole budget more
+                    plan2 = dataclasses.replace(plan, segment_bytes=max(pc.bytes for pc in todo))
+                    outs2, complete2, reason2, err2 = run_plan(stream, plan2, ex, checks=todo, progress=progress)
                     if err2 is not None:
                         raise err2
                 except Exception as e:  # no more data: keep round one
@@ -109,7 +112,7 @@ def run_battery(
         incomplete=not complete,
         elapsed_s=time.perf_counter() - t0,
         plan=plan.to_list(),
-        settings=dict(settings or {}, segments=plan.segments, shared_segments=plan.shared,
+        settings=dict(settings or {}, segments=plan.segments,
                       borderline_factor=G.BORDERLINE_FACTOR),
         notes=notes,
     )
@@ -129,7 +132,7 @@ def stopped_report(stream: Stream, plan: Plan, reason: str, *, alpha: float = G.
         command=command, source=stream.info().to_dict(), budget_bytes=plan.budget_bytes, alpha=alpha,
         verdict=NO_VERDICT, combined_p=None, checks=[], incomplete=True,
         elapsed_s=time.perf_counter() - (t0 if t0 is not None else time.perf_counter()), plan=plan.to_list(),
-        settings=dict(settings or {}, segments=plan.segments, shared_segments=plan.shared,
+        settings=dict(settings or {}, segments=plan.segments,
                       borderline_factor=G.BORDERLINE_FACTOR),
         notes=notes,
     )

@@ -144,7 +144,7 @@ def fit_values(
             rows.extend(pit_rep.checks)
             plan_items.extend(pit_rep.plan)
             notes.extend(pit_rep.notes)
-            settings["pit_battery"] = {k: pit_rep.settings.get(k) for k in ("segments", "shared_segments")}
+            settings["pit_battery"] = {k: pit_rep.settings.get(k) for k in ("segments",)}
             settings["pit_battery"]["bytes"] = pit_rep.budget_bytes
     elif not battery:
         notes.append("the uniform battery on the PIT values was not run (fit-specific checks only)")
@@ -243,7 +243,7 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
         notes.append(f"PIT battery: float resolution left out: {fmt} variates are rounded, so their PIT values "
                      "repeat by construction")
     try:  # windows=False: the PIT values' last bits are rounding of F(x), not randomness
-        plan = make_plan(parse_format("<f8"), 8 * int(u.size), shared=True, checks=bsel, skip=bskip or None,
+        plan = make_plan(parse_format("<f8"), 8 * int(u.size), checks=bsel, skip=bskip or None,
                          strict_selectors=False, windows=False)
     except InputError as e:
         if bsel is not None:

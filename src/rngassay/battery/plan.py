@@ -9,13 +9,12 @@ holds in memory, so peak memory stays bounded at any budget. Every check runs on
 and it reads only the first ``values_needed(params)`` values of that view (a check need not see every
 byte). The second level then combines the ``R`` first-level results (see :mod:`.grade`).
 
-- Finite sources (file, stdin): all checks share the segments: the stream is read once, segment by
-  segment, so memory stays bounded by one segment and its views.
-- Unlimited sources (generators, commands, Python factories): every check gets fresh data: for each
-  check and replicate the runner reads exactly the bytes that check needs.
+The budget is the total read, from any source (file, standard input, command, Python factory, built-in
+generator): all checks share the segments, and the stream is read once, segment by segment, so memory stays
+bounded by one segment and its views. A check's share of the read is the part of each segment it reads.
 
-The plan depends only on the input format, the budget, the source kind and the selection, never on
-the number of workers, so results are identical for any ``--workers``.
+The plan depends only on the input format, the budget and the selection, never on the source kind or the
+number of workers, so results are identical for any ``--workers``.
 """
 
 from __future__ import annotations
@@ -24,7 +23,7 @@ import math
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from ..checks.registry import CheckSpec, check_id, matches
+from ..checks.registry import CheckSpec, check_id, matches, stable_params
 from ..checks.catalog import load_all
 from ..errors import InputError
 from ..intake import views
@@ -33,7 +32,6 @@ from ..intake.formats import Format
 MIN_SEGMENTS, MAX_SEGMENTS = 4, 64
 SEGMENT_UNIT = 2 << 20
 MAX_SEGMENT_BYTES = 64 << 20  # above 4 GiB the budget is cut into more than 64 segments of at most 64 MiB
-SIZE_KEYS = ("n", "n_bits", "n_values", "n_words")  # parameters that only say how much data is used
 # Above this many bytes per check (all replicates together), a check sees only the first
 # CHECK_CAP_BYTES / R bytes of each segment -- unless its registry entry says it is cheap
 # (``CheckSpec.cheap``: one fast counting pass) or it is a block check on a fixed sample
@@ -56,6 +54,7 @@ class PlannedCheck:
     bytes: int  # stream bytes (text: values) per replicate
     replicates: int
     sample: str | None = None  # a block check's fixed sample, and why (CheckSpec.sample)
+    sized: str = ""  # the parameters chosen from the data available (not in the id), e.g. "t=12"
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -67,7 +66,6 @@ class Plan:
     budget_bytes: int
     segments: int
     segment_bytes: int  # binary formats: bytes per segment; text: values per segment
-    shared: bool  # finite source: checks share segments
     checks: list[PlannedCheck] = field(default_factory=list)
     skipped: list[str] = field(default_factory=list)  # checks left out, with the reason
 
@@ -75,9 +73,12 @@ class Plan:
         return [c.to_dict() for c in self.checks]
 
     def bytes_total(self) -> int:
-        if self.shared:
-            return self.segments * self.segment_bytes
-        return sum(c.bytes * c.replicates for c in self.checks)
+        """What the run reads (bytes; text: values): every segment once, shared by the checks."""
+        return self.segments * self.segment_bytes
+
+    def share(self, c: PlannedCheck) -> float:
+        """The part of the run's read that a check reads (its bytes per replicate, over its replicates)."""
+        return c.bytes * c.replicates / max(1, self.bytes_total())
 
     def describe(self) -> str:
         from ..sizes import format_size
@@ -85,15 +86,20 @@ class Plan:
         unit = "values" if not self.fmt.is_binary else "bytes"
         budget = (f"{format_size(self.budget_bytes)} ({self.budget_bytes} bytes)" if self.fmt.is_binary
                   else f"{self.budget_bytes} values")
+        total = self.bytes_total()
         lines = [
-            f"plan: {len(self.checks)} checks, up to {self.segments} replicates each, "
-            + (f"shared segments of {self.segment_bytes} {unit}" if self.shared else "fresh data for every check"),
+            f"plan: {len(self.checks)} checks, up to {self.segments} replicates each, on {self.segments} segments of "
+            f"{self.segment_bytes} {unit} that all checks share",
             f"budget {budget}; format {self.fmt.describe()}",
+            f"reads {total} {unit} in all" + (f" ({format_size(total)})" if self.fmt.is_binary else "")
+            + "; a borderline retest reads once more what the retested checks need",
             "",
-            f"  {'check':<52} {'family':<11} {'view':<9} {'per replicate':>14} {'replicates':>10}",
+            f"  {'check':<52} {'family':<11} {'view':<9} {'per replicate':>14} {'replicates':>10} {'share':>6}"
+            "  sized to the data",
         ]
         for c in self.checks:
-            lines.append(f"  {c.id:<52} {c.family:<11} {c.view:<9} {c.bytes:>14} {c.replicates:>10}"
+            lines.append(f"  {c.id:<52} {c.family:<11} {c.view:<9} {c.bytes:>14} {c.replicates:>10} "
+                         f"{_pct(self.share(c)):>6}" + (f"  {c.sized}" if c.sized else "")
                          + ("  fixed sample" if c.sample else ""))
         fixed = {c.key: c.sample for c in self.checks if c.sample}
         if fixed:
@@ -105,8 +111,15 @@ class Plan:
         return "\n".join(lines)
 
 
-def display_id(key: str, params: dict[str, Any]) -> str:
-    return check_id(key, {k: v for k, v in params.items() if k not in SIZE_KEYS})
+def _pct(x: float) -> str:
+    return f"{100 * x:.0f}%" if x >= 0.1 else (f"{100 * x:.1f}%" if x >= 0.001 else "<0.1%")
+
+
+def display_id(spec: CheckSpec, params: dict[str, Any]) -> tuple[str, str]:
+    """A run's identifier (the same at every budget) and its parameters chosen from the data, as text."""
+    shown, sized = stable_params(spec, params)
+    return check_id(spec.key, shown), " ".join(f"{k}={v:g}" if isinstance(v, float) else f"{k}={v}"
+                                               for k, v in sized.items())
 
 
 def segments_for(budget_bytes: int, binary: bool = True) -> int:
@@ -136,7 +149,7 @@ def plan_params(key: str, spec: CheckSpec, fmt: Format, param_sets: list[dict], 
             # the values were found on (when read whole), so that a coarse grid fails once, not in each
             bits = views.claimed_bits(fmt) if spec.judges_grid else views.float_bits(fmt)
             params = {**params, rp: bits}
-        cid = display_id(key, params)
+        cid, sized = display_id(spec, params)
         if checks and not _matches(spec, cid, checks):
             continue
         if skip and _matches(spec, cid, skip):
@@ -149,7 +162,8 @@ def plan_params(key: str, spec: CheckSpec, fmt: Format, param_sets: list[dict], 
         if fmt.is_binary:
             nbytes += (-nbytes) % max(8, fmt.itemsize)
         reps = max(1, min(replicates, int(spec.max_replicates or replicates)))  # costly checks: fewer replicates
-        out.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, reps, spec.sample))
+        out.append(PlannedCheck(cid, key, spec.family, spec.view, dict(params), need, nbytes, reps, spec.sample,
+                                sized))
         if first_only:
             break
     return out
@@ -159,7 +173,6 @@ def make_plan(
     fmt: Format,
     budget_bytes: int,
     *,
-    shared: bool,
     checks: list[str] | None = None,
     skip: list[str] | None = None,
     families: tuple[str, ...] | None = None,
@@ -194,7 +207,7 @@ def make_plan(
             )
     else:
         seg = max(1, budget_bytes // R)  # text: values per segment (budget counted in values)
-    plan = Plan(fmt, budget_bytes, R, seg, shared)
+    plan = Plan(fmt, budget_bytes, R, seg)
     avail = set(views.available_views(fmt))
     selected_any = False
     for key, spec in sorted(registry.items(), key=lambda kv: (_family_order(kv[1].family), kv[0])):

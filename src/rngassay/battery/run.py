@@ -346,70 +346,43 @@ def run_plan(
         _Guard.deferred = False
         if _Guard.received is not None and _Guard.depth:
             raise Interrupted(_Guard.received)
-        if plan.shared:
-            # read (and hash) the next segment while the workers check the ones before it (one per worker)
-            from collections import deque
+        # read (and hash) the next segment while the workers check the ones before it (one per worker)
+        from collections import deque
 
-            pending: deque = deque()
-            in_flight = executor.in_flight
+        pending: deque = deque()
+        in_flight = executor.in_flight
 
-            def absorb(j: int, active: list[Outcome], handle: Any, timeout: float | None = None) -> None:
-                for o, (res, err, sec) in zip(active, executor.collect(handle, timeout)):
-                    o.bytes += o.check.bytes
-                    o.seconds += sec
-                    o.results[j] = res
-                    if err:
-                        o.errors.append(f"replicate {j + 1}: {err}")
+        def absorb(j: int, active: list[Outcome], handle: Any, timeout: float | None = None) -> None:
+            for o, (res, err, sec) in zip(active, executor.collect(handle, timeout)):
+                o.bytes += o.check.bytes
+                o.seconds += sec
+                o.results[j] = res
+                if err:
+                    o.errors.append(f"replicate {j + 1}: {err}")
 
-            try:
-                for j in range(plan.segments):
-                    if progress:
-                        progress(f"segment {j + 1}/{plan.segments}: {len(todo)} checks")
-                    vals = _read_segment(stream, plan)
-                    active = [o for o in outcomes if j < o.check.replicates]
-                    handle = executor.submit_segment(vals, plan.fmt, [o.check for o in active], j)
-                    pending.append((j, active, handle))
-                    while len(pending) > in_flight:
-                        absorb(*pending.popleft())
-            except BaseException as e:
-                # keep what finished: the segments already being checked still count (after a stop
-                # signal they get a grace period in all, then the workers are terminated)
-                end = time.monotonic() + WORKER_GRACE_S
-                while pending:
-                    left = max(0.0, end - time.monotonic()) if isinstance(e, KeyboardInterrupt) else None
-                    try:
-                        absorb(*pending.popleft(), timeout=left)
-                    except BaseException:
-                        pass
-                raise
-            while pending:
-                absorb(*pending.popleft())
-        else:
+        try:
             for j in range(plan.segments):
                 if progress:
-                    progress(f"replicate {j + 1}/{plan.segments}: {len(todo)} checks on fresh data")
-                batch = []
+                    progress(f"segment {j + 1}/{plan.segments}: {len(todo)} checks")
+                vals = _read_segment(stream, plan)
                 active = [o for o in outcomes if j < o.check.replicates]
+                handle = executor.submit_segment(vals, plan.fmt, [o.check for o in active], j)
+                pending.append((j, active, handle))
+                while len(pending) > in_flight:
+                    absorb(*pending.popleft())
+        except BaseException as e:
+            # keep what finished: the segments already being checked still count (after a stop
+            # signal they get a grace period in all, then the workers are terminated)
+            end = time.monotonic() + WORKER_GRACE_S
+            while pending:
+                left = max(0.0, end - time.monotonic()) if isinstance(e, KeyboardInterrupt) else None
                 try:
-                    for o in active:
-                        n = o.check.bytes // plan.fmt.itemsize if plan.fmt.is_binary else o.check.bytes
-                        vals = stream.read_values(n)
-                        if vals.size < n:
-                            raise InputError(
-                                f"the source ended after {stream.bytes_read} bytes; this plan reads "
-                                f"{plan.bytes_total()} bytes (fresh data for every check)",
-                                stream.source.where,
-                                "give a smaller --budget or make the source produce more",
-                            )
-                        batch.append(vals)
-                except InputError:
-                    # the source died: the checks whose data was read in full still run on it
-                    if batch:
-                        part = active[: len(batch)]
-                        _keep(part, _run_fresh(executor, batch, plan.fmt, [o.check for o in part], j), j)
-                    raise
-                # fresh data per check: run each on its own data, spread over the workers
-                _keep(active, _run_fresh(executor, batch, plan.fmt, [o.check for o in active], j), j)
+                    absorb(*pending.popleft(), timeout=left)
+                except BaseException:
+                    pass
+            raise
+        while pending:
+            absorb(*pending.popleft())
     except KeyboardInterrupt as e:
         signum = getattr(e, "signum", None) or received_signal()
         reason = "interrupted" + (f" by {signal_name(signum)}" if signum else "")
@@ -426,21 +399,6 @@ def run_plan(
     finally:
         _Guard.deferred = prev_deferred
     return PlanRun(outcomes, reason is None, reason, error)
-
-
-def _keep(outcomes: list[Outcome], results: list, j: int) -> None:
-    """Record replicate ``j`` of checks that ran on fresh data of their own."""
-    for o, (res, err, sec) in zip(outcomes, results):
-        o.bytes += o.check.bytes
-        o.seconds += sec
-        o.results[j] = res
-        if err:
-            o.errors.append(f"replicate {j + 1}: {err}")
-
-
-def _run_fresh(executor: Executor, batch: list[np.ndarray], fmt: Format, checks: list[PlannedCheck], segment: int = 0):
-    futs = [executor.submit(_run_segment_task, v, fmt, [pc], segment) for v, pc in zip(batch, checks)]
-    return [f.result()[0] for f in futs]
 
 
 def _read_segment(stream: Stream, plan: Plan) -> np.ndarray:

@@ -48,6 +48,7 @@ class CheckSpec:
                      its statistic, e.g. Good's first difference); see ``battery.grade.pool_sufficient``
     windows, cheap, max_replicates, resolution_param, judges_grid, table, from_table, sample -- how the plan
                      and the runner treat it (see the fields)
+    sized, id_params -- what the check's identifier leaves out (see :func:`stable_params`)
     """
 
     key: str
@@ -75,6 +76,13 @@ class CheckSpec:
     # a block check that reads a fixed sample however large the budget (its parameters cap the data it
     # reads): why, in a few words, for the plan and the README
     sample: str | None = None
+    # parameters that ``default_params`` chooses from the amount of data (e.g. gap's t, serial's v): left out of
+    # the check's identifier, so that a selector in a CI job does not break when the budget changes; the plan
+    # lists their values beside the identifier
+    sized: tuple[str, ...] = ()
+    # a check whose variants differ only in a sized parameter names them here: id_params(params) -> the
+    # parameters its identifier shows (e.g. equidistribution d=16 and the fine d chosen from the data)
+    id_params: Callable[[dict], dict] | None = None
 
 
 @dataclass(frozen=True)
@@ -122,6 +130,22 @@ def selected(key: str, family: str, cid: str, checks: list[str] | None, skip: li
     if checks and not matches(key, family, cid, checks):
         return False
     return not (skip and matches(key, family, cid, skip))
+
+
+#: parameters that only say how much data a run reads: never part of an identifier
+SIZE_KEYS = ("n", "n_bits", "n_values", "n_words")
+
+
+def stable_params(spec: CheckSpec, params: dict) -> tuple[dict, dict]:
+    """Split a run's parameters into those its identifier shows and those chosen from the amount of data
+    (``spec.sized``; the sample sizes of SIZE_KEYS are in neither): the identifier of a check is the same at
+    every budget, so ``--checks``/``--skip`` selectors and report diffs keep working when the budget changes."""
+    shown = {k: v for k, v in params.items() if k not in SIZE_KEYS and k not in spec.sized}
+    sized = {k: v for k, v in params.items() if k in spec.sized}
+    if spec.id_params is not None:
+        shown = spec.id_params({k: v for k, v in params.items() if k not in SIZE_KEYS})
+        sized = {k: v for k, v in params.items() if k not in SIZE_KEYS and shown.get(k) != v}
+    return shown, sized
 
 
 def check_id(key: str, params: dict) -> str:

@@ -456,7 +456,7 @@ def sweep_report(sp: SweepPlan, tasks: SweepTasks, factory: SeedFactory, alpha: 
 def _sub_battery(arr: np.ndarray, rid: str, executor: Any, notes: list[str]) -> dict[str, Any] | None:
     """The battery on a merged stream: one p-value (Bonferroni minimum over its checks) and the worst checks."""
     try:
-        plan = make_plan(_U1, int(arr.size), shared=True)
+        plan = make_plan(_U1, int(arr.size))
     except InputError:
         notes.append(f"{rid}: {arr.size} bytes are too few for the battery")
         return None

@@ -529,7 +529,7 @@ def test_battery_plan_ids_have_no_sizes():
     from rngassay.battery.plan import make_plan
     from rngassay.intake.formats import parse_format
 
-    plan = make_plan(parse_format("u1"), 8 * MiB, shared=True, checks=[KEY])
+    plan = make_plan(parse_format("u1"), 8 * MiB, checks=[KEY])
     ids = [c.id for c in plan.checks]
     assert ids == [f"{KEY} k={k} w={w} band={b}" for w, b in ((64, 3), (32, 2)) for k in (2, 3, 4)]
     assert all(c.replicates == 4 and c.view == "words64" for c in plan.checks)

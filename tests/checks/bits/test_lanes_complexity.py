@@ -9,6 +9,7 @@ import pytest
 from scipy import stats
 
 from rngassay.battery.plan import display_id
+from rngassay.checks.registry import REGISTRY
 from rngassay.checks.bits._common import bits_from_string, lanes_u64
 from rngassay.checks.bits.lanes_complexity import (
     _lc_long_defaults,
@@ -233,8 +234,8 @@ def test_planner_defaults_and_id():
     assert _lc_long_defaults(524_288) == [{"n_words": 1 << 18, "log2_block": 18, "lanes": 4}]
     assert _lc_long_defaults(200_000) == [{"n_words": 1 << 17, "log2_block": 17, "lanes": 4}]
     assert _lc_long_defaults((1 << 16) - 1) == []
-    assert display_id("linear complexity long lanes", _lc_long_defaults(524_288)[0]) == \
-        "linear complexity long lanes log2_block=18 lanes=4"
+    assert display_id(REGISTRY["linear complexity long lanes"], _lc_long_defaults(524_288)[0]) == \
+        ("linear complexity long lanes lanes=4", "log2_block=18")  # the block length is chosen from the data
 
 
 def test_battery_fails_lcg32_and_passes_pcg64():

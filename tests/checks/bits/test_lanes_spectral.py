@@ -40,6 +40,7 @@ import pytest
 from scipy import stats
 
 from rngassay.battery.plan import display_id
+from rngassay.checks.registry import REGISTRY
 from rngassay.checks.bits.lanes_spectral import (
     LaneParameterError,
     _spectral_lanes_defaults,
@@ -249,7 +250,8 @@ def test_planner_defaults_and_id():
     assert _spectral_lanes_defaults(262_144) == [{"n_words": 1 << 18, "log2_block": 18}]
     assert _spectral_lanes_defaults(100_000) == [{"n_words": 1 << 16, "log2_block": 16}]
     assert _spectral_lanes_defaults((1 << 16) - 1) == []
-    assert display_id("spectral dft lanes", _spectral_lanes_defaults(524_288)[0]) == "spectral dft lanes log2_block=19"
+    assert display_id(REGISTRY["spectral dft lanes"], _spectral_lanes_defaults(524_288)[0]) == \
+        ("spectral dft lanes", "log2_block=19")  # the block length is chosen from the data: not in the id
 
 
 def test_battery_fails_lcg32_and_passes_pcg64():

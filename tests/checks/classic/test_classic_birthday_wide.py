@@ -328,9 +328,9 @@ def test_registry_entry_and_id():
     assert spec.view == "words32" and spec.kind == "discrete" and spec.both_tails and spec.family == "classic"
     p = default_variants(1 << 19)[0]
     assert spec.values_needed(p) == p["n_words"]
-    from rngassay.battery.plan import display_id  # sizes are stripped from the id (plan.SIZE_KEYS)
+    from rngassay.battery.plan import display_id  # sample sizes and b (chosen from the data) stay out of the id
 
-    assert display_id(spec.key, p) == "birthday spacings wide t=2 b=26"
+    assert display_id(spec, p) == ("birthday spacings wide t=2", "b=26")
     r = check_birthday_spacings_wide(pcg_words(1, 1 << 16), t=2, b=22, n=1 << 14)
     assert r.name == check_id("birthday spacings wide", {"t": 2, "b": 22})
     assert r.details["samples"] == 2 and r.n == 1 << 16

@@ -218,7 +218,7 @@ def test_registry_entry_and_result():
     from rngassay.battery.plan import display_id
 
     p = default_variants(1 << 18)[1]
-    assert display_id(spec.key, p) == "close pairs t=3 mu=32" and spec.values_needed(p) == p["n_values"]
+    assert display_id(spec, p) == ("close pairs t=3 mu=32", "") and spec.values_needed(p) == p["n_values"]
     u = pcg_uniforms(3, 3 * 2000 + 5)
     res = check_close_pairs(u, t=3, n=1000, mu=20.0)
     assert res.name == "close pairs t=3 mu=20"

@@ -381,6 +381,7 @@ def _lc_lane_defaults(nw: int) -> list[dict]:
 
 register(CheckSpec(
     key="linear complexity lanes", family="bits", windows=("fraction-tail",),
+    sized=("blocks",),  # 7 or 8 blocks a lane, from the data available
     title="linear complexity test per bit lane of 32-bit words", view="words32", kind="continuous",
     func=linear_complexity_lanes, values_needed=lambda p: int(p["n_words"]),
     default_params=_lc_lane_defaults, source=f"{SP800_22} §2.10 applied to bit lanes",

@@ -359,6 +359,7 @@ def _block_frequency_defaults(n: int) -> list[dict]:
 
 register(CheckSpec(
     key="block frequency", family="bits", title="frequency test within a block", view="bits",
+    sized=("M",),  # block length, from the data available
     kind="continuous", func=block_frequency, values_needed=_n,
     default_params=_block_frequency_defaults, source=f"{SP800_22} §2.2",
 ))

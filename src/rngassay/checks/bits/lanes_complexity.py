@@ -120,6 +120,7 @@ def _lc_long_defaults(nw: int) -> list[dict]:
 
 register(CheckSpec(
     key="linear complexity long lanes", family="bits", windows=("fraction-tail",),
+    sized=("log2_block",),  # block length, from the data available
     title="linear complexity of long blocks of the lowest bit lanes of 32-bit words", view="words32",
     kind="discrete", func=linear_complexity_long_lanes, values_needed=lambda p: int(p["n_words"]),
     default_params=_lc_long_defaults,

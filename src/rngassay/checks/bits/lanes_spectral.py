@@ -248,6 +248,7 @@ def _spectral_lanes_defaults(nw: int) -> list[dict]:
 
 register(CheckSpec(
     key="spectral dft lanes", family="bits", windows=("fraction-tail",), title="discrete Fourier transform test per bit lane of 32-bit words",
+    sized=("log2_block",),  # block length, from the data available
     view="words32", kind="discrete", func=spectral_dft_lanes, values_needed=lambda p: int(p["n_words"]),
     default_params=_spectral_lanes_defaults,
     source=f"{SP800_22} §2.6 (the transform), applied per bit lane; Schuster (1898) periodogram, "

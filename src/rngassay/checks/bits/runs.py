@@ -294,6 +294,7 @@ def _longest_defaults(n: int) -> list[dict]:
 
 register(CheckSpec(
     key="longest run of ones", family="bits", title="test for the longest run of ones in a block",
+    sized=("M",),  # the block length the published table gives for the data available
     view="bits", kind="continuous", func=longest_run_of_ones, values_needed=_n,
     default_params=_longest_defaults, source=f"{SP800_22} §2.4", pool=pool_longest_run,
 ))

@@ -227,6 +227,7 @@ def _serial_defaults(n: int) -> list[dict]:
 
 register(CheckSpec(
     key="serial psi2", family="bits", title="serial test (psi-squared)", view="bits",
+    sized=("m",),  # pattern length, from the data available
     kind="continuous", func=serial_psi2, values_needed=lambda p: int(p["n_bits"]),
     default_params=_serial_defaults, source=f"Good (1953); {SP800_22} §2.11", pool=pool_serial_psi2,
     table=CYCLIC_PATTERNS, from_table=serial_from_table,

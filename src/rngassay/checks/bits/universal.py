@@ -121,6 +121,7 @@ def _universal_defaults(n: int) -> list[dict]:
 
 register(CheckSpec(
     key="universal maurer", family="bits", title="Maurer's universal statistical test", view="bits",
+    sized=("L", "Q"),  # block length and initialisation blocks the published table gives for the data
     kind="continuous", func=universal_maurer, values_needed=lambda p: int(p["n_bits"]),
     default_params=_universal_defaults, source=f"Maurer (1992); {SP800_22} §2.9", pool=pool_universal,
 ))

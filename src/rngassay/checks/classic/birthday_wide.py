@@ -306,6 +306,7 @@ def default_variants(n_words: int) -> list[dict]:
 
 register(CheckSpec(
     key=KEY, family="classic",
+    sized=("b",),  # bits per coordinate, from the data available
     title="birthday spacings in t dimensions with large cell counts (L'Ecuyer & Simard 2001)",
     view="words32", kind="discrete", func=check_birthday_spacings_wide,
     values_needed=lambda p: int(p["n_words"]), default_params=default_variants, both_tails=True,

@@ -147,6 +147,7 @@ def _coupon_defaults(n: int) -> list[dict]:
 
 register(CheckSpec(
     key="coupon collector", family="classic", title="coupon-collector test", view="uniforms",
+    sized=("t",),  # the longest run length counted, from the data available
     kind="continuous", func=check_coupon, values_needed=lambda p: int(p["n"]),
     default_params=_coupon_defaults, both_tails=True, source=f"{KNUTH} E",
     notes="d = 8 and 32; t so that >= 10 segments are expected in the lumped class",

@@ -298,6 +298,7 @@ def _equidistribution_defaults(n: int) -> list[dict]:
 
 register(CheckSpec(
     key="equidistribution", family="classic", title="equidistribution (frequency) test on uniforms",
+    id_params=lambda p: {"d": 16} if p.get("d") == 16 else {"d": "fine"},  # the fine d: from the data
     view="uniforms", kind="continuous", func=check_equidistribution,
     values_needed=lambda p: int(p["n"]), default_params=_equidistribution_defaults, both_tails=True,
     table=UNIFORM_BINS, from_table=equidistribution_from_table,

@@ -129,6 +129,7 @@ def _gap_defaults(n: int) -> list[dict]:
 
 register(CheckSpec(
     key="gap", family="classic", windows=("reversed",), title="gap test", view="uniforms", kind="continuous", func=check_gap,
+    sized=("t",),  # the longest gap counted, from the data available
     values_needed=lambda p: int(p["n"]), default_params=_gap_defaults, both_tails=True,
     source=f"{KNUTH} C",
     notes="[0, 0.5) and [0.9375, 1); t so that >= 10 gaps are expected in the lumped class (t <= 256)",

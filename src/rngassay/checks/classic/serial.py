@@ -222,6 +222,7 @@ def _serial_overlapping_defaults(n: int) -> list[dict]:
 
 register(CheckSpec(
     key="serial", family="classic", windows=("reversed",), title="serial test on non-overlapping d-tuples", view="uniforms",
+    sized=("v",),  # cells per axis, from the data available
     kind="continuous", func=check_serial, values_needed=lambda p: int(p["n"]),
     default_params=_serial_defaults, both_tails=True, source=f"{KNUTH} B",
     notes="d = 2, 3; v = largest power of two with >= 10 tuples per cell, <= 2^20 cells",
@@ -229,6 +230,7 @@ register(CheckSpec(
 
 register(CheckSpec(
     key="serial overlapping", family="classic",
+    sized=("v",),  # cells per axis, from the data available
     title="serial test on overlapping d-tuples (first difference of psi-square)", view="uniforms",
     kind="continuous", func=check_serial_overlapping, values_needed=lambda p: int(p["n"]),
     default_params=_serial_overlapping_defaults, both_tails=True, pool=pool_first_difference,
