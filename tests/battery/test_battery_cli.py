@@ -104,22 +104,42 @@ def test_unknown_selectors_are_refused(run_cli, sound_file, args):
     assert r.code == 2 and len(r.err.strip().splitlines()) == 1
 
 
-def test_progress_bar_only_on_a_terminal_and_after_a_delay(capsys, monkeypatch):
+def test_progress_only_on_a_terminal_and_after_a_delay(capsys, monkeypatch):
     import sys
 
+    from rngassay.battery.run import Stage
     from rngassay.cli import Progress
 
     p = Progress(quiet=False)
     assert not p.on  # pytest's stderr is not a terminal: nothing is ever drawn
+    p(Stage("checks: segment 1/4 read", 1 << 20, 4 << 20))
+    assert capsys.readouterr().err == ""
     monkeypatch.setattr(sys.stderr, "isatty", lambda: True, raising=False)
     assert not Progress(quiet=True).on
     slow = Progress(quiet=False, delay=3600)
-    slow("segment 1/4")  # within the delay: silent
+    slow(Stage("checks: segment 1/4 read", 1 << 20, 4 << 20))  # within the delay: silent
+    slow.done()
+    assert capsys.readouterr().err == ""
     fast = Progress(quiet=False, delay=0)
-    fast("segment 2/4: 70 checks")
-    fast.done()
+    fast(Stage("checks: segment 2/4 read, 70 checks", 2 << 20, 4 << 20, "bytes", "checks"))
     err = capsys.readouterr().err
-    assert "[############............] segment 2/4" in err and err.count("segment") == 1
+    # the stage, bytes read of planned, elapsed, rate and time left
+    assert "checks: segment 2/4 read" in err and "2.10MB/4.19MB read" in err and "elapsed" in err and "left" in err
+    assert "B/s" in err
+    fast("seeds 64/1000 (block 2/32)")  # a plain message with a count: the bar counts seeds
+    fast.done()
+    assert "64/1000" in capsys.readouterr().err
+
+
+def test_progress_reports_bytes_read_of_planned():
+    from rngassay import api
+
+    seen = []
+    api.assay(gen="pcg64", seed=3, budget="512KiB", workers=1, checks=["byte frequency"], progress=seen.append)
+    stages = [s for s in seen if hasattr(s, "done")]
+    assert [s.done for s in stages] == [k * (128 << 10) for k in range(1, 5)]
+    assert {s.total for s in stages} == {512 << 10} and {s.unit for s in stages} == {"bytes"}
+    assert stages[0].startswith("checks: segment 1/4 read")
 
 
 def test_terminal_report_carries_the_cautions(run_cli, sound_file):

@@ -68,7 +68,8 @@ def run_battery(
                 try:  # (run_plan can be interrupted like the first round)
                     # segments as long as the retested checks need, not a whole budget more
                     plan2 = dataclasses.replace(plan, segment_bytes=max(pc.bytes for pc in todo))
-                    outs2, complete2, reason2, err2 = run_plan(stream, plan2, ex, checks=todo, progress=progress)
+                    outs2, complete2, reason2, err2 = run_plan(stream, plan2, ex, checks=todo, progress=progress,
+                                                               stage="retest")
                     if err2 is not None:
                         raise err2
                 except Exception as e:  # no more data: keep round one

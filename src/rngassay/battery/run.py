@@ -63,6 +63,21 @@ def _worker_init() -> None:
             signal.signal(getattr(signal, name), action)
 
 
+class Stage(str):
+    """A progress message that also carries counts: ``done`` of ``total`` ``unit`` read (bytes; values for
+    text) in the run's current ``stage``. A callback that takes a plain ``str`` gets the message as before."""
+
+    done: int
+    total: int
+    unit: str
+    stage: str
+
+    def __new__(cls, text: str, done: int, total: int, unit: str = "bytes", stage: str = "") -> "Stage":
+        obj = super().__new__(cls, text)
+        obj.done, obj.total, obj.unit, obj.stage = int(done), int(total), unit, stage
+        return obj
+
+
 class PlanRun(NamedTuple):
     """What a run of a plan returned: complete, or partial with what finished and why it stopped."""
 
@@ -327,6 +342,7 @@ def run_plan(
     executor: Executor,
     checks: list[PlannedCheck] | None = None,
     progress: Callable[[str], None] | None = None,
+    stage: str = "checks",
 ) -> "PlanRun":
     """Run (a subset of) the plan's checks over ``plan.segments`` fresh segments of the stream.
 
@@ -362,9 +378,11 @@ def run_plan(
 
         try:
             for j in range(plan.segments):
-                if progress:
-                    progress(f"segment {j + 1}/{plan.segments}: {len(todo)} checks")
                 vals = _read_segment(stream, plan)
+                if progress:
+                    unit = "bytes" if plan.fmt.is_binary else "values"
+                    progress(Stage(f"{stage}: segment {j + 1}/{plan.segments} read, {len(todo)} checks", (j + 1) *
+                                   plan.segment_bytes, plan.segments * plan.segment_bytes, unit, stage))
                 active = [o for o in outcomes if j < o.check.replicates]
                 handle = executor.submit_segment(vals, plan.fmt, [o.check for o in active], j)
                 pending.append((j, active, handle))

@@ -10,6 +10,7 @@ from typing import Any
 import click
 
 from ..errors import InputError
+from .progress import Progress  # noqa: F401 (the commands import it from here)
 
 EXIT_OK, EXIT_FAIL, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
 
@@ -45,44 +46,6 @@ def source_options(f):
     for o in reversed(opts):
         f = o(f)
     return f
-
-
-class Progress:
-    """A progress bar on stderr, shown only on a terminal, unless --quiet, and only once a run has taken
-    more than ``delay`` seconds (short runs stay silent)."""
-
-    def __init__(self, quiet: bool, delay: float = 2.0):
-        import time
-
-        self.on = (not quiet) and sys.stderr.isatty()
-        self._last = ""
-        self._t0 = time.monotonic()
-        self._delay = delay
-
-    def __call__(self, text: str) -> None:
-        import re
-        import time
-
-        if not self.on or time.monotonic() - self._t0 < self._delay:
-            return
-        m = re.search(r"(\d+)/(\d+)", text)
-        if m and int(m.group(2)) > 0:
-            done, total = int(m.group(1)), int(m.group(2))
-            width = 24
-            fill = round(width * min(done, total) / total)
-            text = f"[{'#' * fill}{'.' * (width - fill)}] {text}"
-        line = f"\r{text[:100]:<100}"
-        if line != self._last:
-            sys.stderr.write(line)
-            sys.stderr.flush()
-            self._last = line
-
-    def done(self) -> None:
-        if self.on and self._last:
-            sys.stderr.write("\r" + " " * 100 + "\r")
-            sys.stderr.flush()
-            self._last = ""
-
 
 
 def quiet_broken_pipe() -> None:
