@@ -20,7 +20,7 @@ from .signals import signal_guard, signal_name
 from .battery.grade import DEFAULT_ALPHA
 from .battery.plan import Plan, make_plan
 from .battery.run import auto_workers
-from .model import Report
+from .model import Report, begin_audit, close_audit
 from .battery.conformance import DEFAULT_PIT_SEED, fit_values, read_for
 from .checks.transform.declared import parse_dist_spec, read_odds
 
@@ -46,6 +46,7 @@ def assay(
     plan_only: bool = False,
     cluster: str | None = None,
     partial: bool = False,
+    argv: list[str] | None = None,
 ) -> Report | Plan:
     """Assay a stream and return its :class:`~rngassay.model.Report`.
 
@@ -61,10 +62,18 @@ def assay(
     Bad data found mid-run (e.g. a NaN in a float stream) raises :class:`~rngassay.errors.InputError`; with
     ``partial=True`` the report of what finished is returned instead, marked incomplete, with the error in
     ``report.input_error`` (what the command line files before it shows the error).
+
+    The report's audit trail records ``argv`` (the command line passes it) or else this call and its options.
+    A ``python`` factory without ``seed`` gets a seed drawn from OS entropy; the audit trail records it
+    (``report.audit["seeds"]``) so that the run can be repeated.
     """
     import time
 
     t0 = time.perf_counter()
+    start = begin_audit(argv, "rngassay.assay", None if argv is not None else {
+        "source": source, "budget": budget, "fmt": fmt, "value_range": value_range, "command": command,
+        "shell": shell or None, "python": python, "gen": gen, "seed": seed, "checks": checks, "skip": skip,
+        "alpha": alpha, "workers": workers, "retest": retest, "cluster": cluster})
     if not (0 < alpha < 1):
         raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
     executor = None
@@ -81,6 +90,7 @@ def assay(
                           gen=gen, seed=seed, fmt=fmt, value_range=value_range,
                           obj=None if path is not None or source is None else source)
     stream = spec.open()
+    raw = stream.source  # (the seed of a seeded source is recorded from it)
     budget_req = requested(budget, stream.fmt)
     budget_bytes = budget_req.amount
     with signal_guard(), stream:
@@ -92,9 +102,10 @@ def assay(
             # a stop signal while the source was read ahead (e.g. standard input): nothing was checked,
             # but the run still ends in a report -- "no verdict", marked incomplete
             plan = make_plan(stream.fmt, budget_bytes, shared=not stream.unlimited, checks=checks, skip=skip)
-            return stopped_report(stream, plan, f"interrupted by {signal_name(getattr(e, 'signum', 2))} while "
-                                  "reading the source", alpha=alpha, t0=t0,
-                                  settings={"workers_used": workers, "retest": retest})
+            report = stopped_report(stream, plan, f"interrupted by {signal_name(getattr(e, 'signum', 2))} while "
+                                    "reading the source", alpha=alpha, t0=t0,
+                                    settings={"workers_used": workers, "retest": retest})
+            return _close(report, start, raw, plan, checks, skip)
         plan = make_plan(f, budget_bytes, shared=shared, checks=checks, skip=skip)
         if plan_only:
             return plan
@@ -108,9 +119,42 @@ def assay(
             stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
             settings=settings, t0=t0, executor=executor,
         )
+        _close(report, start, raw, plan, checks, skip)
     if report.input_error is not None and not partial:
         raise report.input_error
     return report
+
+
+def _close(report: Report, start: dict[str, Any], raw: RawSource, plan: Plan, checks: list[str] | None,
+           skip: list[str] | None) -> Report:
+    """The audit trail of a battery run: the seed of a seeded source, the selection and what it left out."""
+    seeds = source_seeds(raw)
+    left: list[dict[str, str]] = []
+    if checks or skip:  # the checks the selection left out: those of the same plan without a selection
+        from .checks.registry import matches
+
+        try:
+            full = make_plan(plan.fmt, plan.budget_bytes, shared=plan.shared, strict_selectors=False)
+        except InputError:
+            full = plan
+        have = {c.id for c in plan.checks} | {s.split(": ")[0] for s in plan.skipped}
+        for c in full.checks:
+            if c.id in have:
+                continue
+            why = (f"left out by --skip {','.join(skip)}" if skip and matches(c.key, c.family, c.id, skip)
+                   else f"not selected by --checks {','.join(checks or [])}")
+            left.append({"check": c.id, "reason": why})
+    return close_audit(report, start, seeds=seeds, selection={"checks": checks, "skip": skip}, left_out=left)
+
+
+def source_seeds(raw: Any) -> list[dict[str, Any]]:
+    """The seed a seeded source (``--python``, ``--gen``) used, and where it came from, for the audit trail."""
+    kind = getattr(raw, "kind", "")
+    if kind not in ("python", "builtin") or not hasattr(raw, "seed_origin"):
+        return []
+    what = f"--python {raw.name}" if kind == "python" else f"--gen {getattr(raw, 'generator_name', raw.name)}"
+    seed = getattr(raw, "seed", None)
+    return [{"source": what, "seed": None if seed is None else int(seed), "origin": raw.seed_origin}]
 
 
 def render_text(report: Report, color: bool = False) -> str:

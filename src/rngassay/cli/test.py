@@ -6,8 +6,8 @@ import os
 
 import click
 
-from .common import (EXIT_OK, Progress, check_outputs, check_source_given, check_workers, finish, out,
-                     report_options, source_options, split, text, write_outputs)
+from .common import (EXIT_OK, Progress, announce_seeds, check_outputs, check_source_given, check_workers, finish,
+                     out, report_options, run_argv, source_options, split, text, write_outputs)
 
 
 @click.command("test")
@@ -46,10 +46,12 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
         result = api.assay(
             spec, budget=budget, checks=split(checks), skip=split(skip), alpha=alpha,
             workers=workers or "auto", retest=not no_retest, progress=progress, plan_only=plan_only,
-            cluster=cluster, partial=True,
+            cluster=cluster, partial=True, argv=run_argv(),
         )
     finally:
         progress.done()
+    if not plan_only:
+        announce_seeds(result)
     if not plan_only and result.input_error is not None:  # bad data mid-run: file what finished, then the error
         write_outputs(result, outputs)
         out(text(result))

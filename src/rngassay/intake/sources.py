@@ -376,8 +376,18 @@ class PythonSource(ArraySource):
 
     def __init__(self, spec: str, seed: int | None = None):
         factory = load_python_spec(spec)
+        # the seed actually used, and where it came from (the report's audit trail records both): without
+        # --seed, a factory that takes a seed gets one drawn from OS entropy (64 bits), so the run can be repeated
+        self.seed, self.seed_origin = seed, "given"
+        if seed is None:
+            if _takes_seed(factory):
+                import secrets
+
+                self.seed, self.seed_origin = secrets.randbits(64), "drawn"
+            else:
+                self.seed_origin = "none: the factory is called without a seed"
         try:
-            made = factory(seed) if seed is not None else _call_no_seed(factory)
+            made = factory(self.seed) if self.seed is not None else factory()
         except InputError:
             raise
         except Exception as e:
@@ -387,16 +397,13 @@ class PythonSource(ArraySource):
         super().__init__(spec, draw_function(made, spec), "python")
 
 
-def _call_no_seed(factory: Callable[..., Any]) -> Any:
+def _takes_seed(factory: Callable[..., Any]) -> bool:
+    """Whether ``factory`` can be called with one positional argument (the seed)."""
     try:
         sig = inspect.signature(factory)
-        required = [
-            p for p in sig.parameters.values()
-            if p.default is p.empty and p.kind in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD)
-        ]
     except (TypeError, ValueError):  # pragma: no cover - builtins without signature
-        required = []
-    return factory(0) if required else factory()
+        return False
+    return any(p.kind in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD, p.VAR_POSITIONAL) for p in sig.parameters.values())
 
 
 class BuiltinSource(ArraySource):
@@ -407,6 +414,7 @@ class BuiltinSource(ArraySource):
 
         gen = make_generator(name, seed)
         self.seed = GENERATORS[name].default_seed if seed is None else seed
+        self.seed_origin = "given" if seed is not None else "the generator's default"
         super().__init__(f"{name} seed={self.seed}", lambda n: gen.read(n).tobytes(), "builtin")
         self.generator_name = name
 
