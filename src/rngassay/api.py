@@ -164,11 +164,21 @@ def render_text(report: Report, color: bool = False) -> str:
     return render(report, color=color)
 
 
-def sweep_seeds(*args, **kwargs):
-    """The seed sweep; see :func:`rngassay.seeds.sweep.sweep_seeds` (same arguments, returns a Report)."""
+def sweep_seeds(*args, argv: list[str] | None = None, **kwargs):
+    """The seed sweep; see :func:`rngassay.seeds.sweep.sweep_seeds` (same arguments, returns a Report). The
+    report's audit trail records ``argv`` (the command line passes it) or else this call and its options."""
     from .seeds.sweep import sweep_seeds as _sweep
 
-    return _sweep(*args, **kwargs)
+    opts = dict(kwargs, **({"seeds": args[0]} if args else {}))
+    start = begin_audit(argv, "rngassay.sweep_seeds", None if argv is not None else opts)
+    report = _sweep(*args, **kwargs)
+    src = report.source or {}
+    seeds = [{"source": "seed sweep", "seed": None, "origin": "the sweep's list of seeds",
+              "spec": src.get("seed_spec"), "count": src.get("seeds"), "first": src.get("first_seed"),
+              "last": src.get("last_seed")}]
+    return close_audit(report, start, seeds=seeds,
+                       selection={"checks": kwargs.get("checks"), "skip": kwargs.get("skip"),
+                                  "per-seed-checks": kwargs.get("per_seed_checks")})
 
 
 def assay_stream(
@@ -213,6 +223,7 @@ def fit(
     workers: int | None = 1,
     pit_seed: int = DEFAULT_PIT_SEED,
     progress: Callable[[str], None] | None = None,
+    argv: list[str] | None = None,
 ) -> Report:
     """Test a supplier's sample against its declared distribution (see :mod:`rngassay.battery.conformance`).
 
@@ -225,6 +236,10 @@ def fit(
     import time
 
     t0 = time.perf_counter()
+    start = begin_audit(argv, "rngassay.fit", None if argv is not None else {
+        "source": source, "dist": dist, "odds": None if odds is None else os.fspath(odds), "fmt": fmt,
+        "command": command, "shell": shell or None, "limit": limit, "checks": checks, "skip": skip,
+        "battery": battery, "alpha": alpha, "workers": workers, "pit_seed": pit_seed})
     if (dist is None) == (odds is None):
         raise InputError("give exactly one of --dist and --odds" if dist is not None else "give --dist SPEC or --odds FILE",
                          "", "--dist for a scipy.stats distribution (e.g. --dist 'norm(loc=0, scale=1)'), "
@@ -235,5 +250,8 @@ def fit(
     if progress:
         progress("reading the values")
     var = read_for(decl, source, fmt=fmt, command=command, shell=shell, limit=limit)
-    return fit_values(var, decl, checks=checks, skip=skip, battery=battery, alpha=alpha, workers=workers,
-                      pit_seed=pit_seed, progress=progress, t0=t0)
+    report = fit_values(var, decl, checks=checks, skip=skip, battery=battery, alpha=alpha, workers=workers,
+                        pit_seed=pit_seed, progress=progress, t0=t0)
+    seeds = [{"source": "--pit-seed, the randomised PIT", "seed": int(pit_seed),
+              "origin": "the default" if pit_seed == DEFAULT_PIT_SEED else "given"}]
+    return close_audit(report, start, seeds=seeds, selection={"checks": checks, "skip": skip})
