@@ -95,6 +95,9 @@ def make(seed=None):
 
 def fixed():
     return np.random.PCG64(5)
+
+def five(seed=5):
+    return np.random.PCG64(seed)
 '''
 
 
@@ -132,6 +135,12 @@ def test_a_factory_without_a_seed_is_said_so(run_cli, tmp_path):
     s = json.loads(j.read_text())["audit"]["seeds"]
     assert s == [{"source": f"--python {f}:fixed", "seed": None,
                   "origin": "none: the factory is called without a seed"}]
+    # a factory whose seed defaults to a number keeps it (nothing is drawn), and the trail names it
+    r = run_cli("test", "--python", f"{f}:five", "--budget", "1MiB", "--checks", "monobit", "--workers", "1",
+                "--json", j)
+    assert r.code == 0 and "drawn" not in r.err
+    assert json.loads(j.read_text())["audit"]["seeds"][0]["seed"] == 5
+    assert "seed         5 for --python" in r.out and "(the factory's default)" in r.out
 
 
 def test_the_python_api_records_the_call_and_its_options():

@@ -50,14 +50,13 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
         )
     finally:
         progress.done()
-    if not plan_only:
-        announce_seeds(result)
-    if not plan_only and result.input_error is not None:  # bad data mid-run: file what finished, then the error
+    if not plan_only and result.input_error is not None:  # (a drawn seed is in the table and the reports)  # bad data mid-run: file what finished, then the error
         write_outputs(result, outputs)
         out(text(result))
         raise result.input_error
     if plan_only:
         out(result.describe())
         raise click.exceptions.Exit(EXIT_OK)
+    announce_seeds(result)
     finish(result, outputs, strict)
 

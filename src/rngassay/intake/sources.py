@@ -378,9 +378,13 @@ class PythonSource(ArraySource):
         factory = load_python_spec(spec)
         # the seed actually used, and where it came from (the report's audit trail records both): without
         # --seed, a factory that takes a seed gets one drawn from OS entropy (64 bits), so the run can be repeated
+        # (a factory whose seed parameter defaults to an integer uses that default, as before)
         self.seed, self.seed_origin = seed, "given"
+        takes, default = _seed_parameter(factory)
         if seed is None:
-            if _takes_seed(factory):
+            if isinstance(default, int) and not isinstance(default, bool):
+                self.seed, self.seed_origin = default, "the factory's default"
+            elif takes:
                 import secrets
 
                 self.seed, self.seed_origin = secrets.randbits(64), "drawn"
@@ -397,13 +401,17 @@ class PythonSource(ArraySource):
         super().__init__(spec, draw_function(made, spec), "python")
 
 
-def _takes_seed(factory: Callable[..., Any]) -> bool:
-    """Whether ``factory`` can be called with one positional argument (the seed)."""
+def _seed_parameter(factory: Callable[..., Any]) -> tuple[bool, Any]:
+    """Whether ``factory`` can be called with one positional argument (the seed), and that parameter's default
+    (None when it has none)."""
     try:
         sig = inspect.signature(factory)
     except (TypeError, ValueError):  # pragma: no cover - builtins without signature
-        return False
-    return any(p.kind in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD, p.VAR_POSITIONAL) for p in sig.parameters.values())
+        return False, None
+    for p in sig.parameters.values():
+        if p.kind in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD, p.VAR_POSITIONAL):
+            return True, None if p.default is p.empty or p.kind == p.VAR_POSITIONAL else p.default
+    return False, None
 
 
 class BuiltinSource(ArraySource):
