@@ -20,7 +20,7 @@ from .signals import signal_guard, signal_name
 from .battery.grade import DEFAULT_ALPHA
 from .battery.plan import Plan, make_plan
 from .battery.run import auto_workers
-from .model import Report
+from .model import Report, begin_audit, close_audit
 from .battery.conformance import DEFAULT_PIT_SEED, fit_values, read_for
 from .checks.transform.declared import parse_dist_spec, read_odds
 
@@ -46,6 +46,7 @@ def assay(
     plan_only: bool = False,
     cluster: str | None = None,
     partial: bool = False,
+    argv: list[str] | None = None,
 ) -> Report | Plan:
     """Assay a stream and return its :class:`~rngassay.model.Report`.
 
@@ -61,10 +62,18 @@ def assay(
     Bad data found mid-run (e.g. a NaN in a float stream) raises :class:`~rngassay.errors.InputError`; with
     ``partial=True`` the report of what finished is returned instead, marked incomplete, with the error in
     ``report.input_error`` (what the command line files before it shows the error).
+
+    The report's audit trail records ``argv`` (the command line passes it) or else this call and its options.
+    A ``python`` factory without ``seed`` gets a seed drawn from OS entropy; the audit trail records it
+    (``report.audit["seeds"]``) so that the run can be repeated.
     """
     import time
 
     t0 = time.perf_counter()
+    start = begin_audit(argv, "rngassay.assay", None if argv is not None else {
+        "source": source, "budget": budget, "fmt": fmt, "value_range": value_range, "command": command,
+        "shell": shell or None, "python": python, "gen": gen, "seed": seed, "checks": checks, "skip": skip,
+        "alpha": alpha, "workers": workers, "retest": retest, "cluster": cluster})
     if not (0 < alpha < 1):
         raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
     executor = None
@@ -81,6 +90,7 @@ def assay(
                           gen=gen, seed=seed, fmt=fmt, value_range=value_range,
                           obj=None if path is not None or source is None else source)
     stream = spec.open()
+    raw = stream.source  # (the seed of a seeded source is recorded from it)
     budget_req = requested(budget, stream.fmt)
     budget_bytes = budget_req.amount
     with signal_guard(), stream:
@@ -92,9 +102,10 @@ def assay(
             # a stop signal while the source was read ahead (e.g. standard input): nothing was checked,
             # but the run still ends in a report -- "no verdict", marked incomplete
             plan = make_plan(stream.fmt, budget_bytes, checks=checks, skip=skip)
-            return stopped_report(stream, plan, f"interrupted by {signal_name(getattr(e, 'signum', 2))} while "
-                                  "reading the source", alpha=alpha, t0=t0,
-                                  settings={"workers_used": workers, "retest": retest})
+            report = stopped_report(stream, plan, f"interrupted by {signal_name(getattr(e, 'signum', 2))} while "
+                                    "reading the source", alpha=alpha, t0=t0,
+                                    settings={"workers_used": workers, "retest": retest})
+            return _close(report, start, raw, plan, checks, skip)
         plan = make_plan(f, budget_bytes, checks=checks, skip=skip)
         if plan_only:
             return plan
@@ -108,9 +119,42 @@ def assay(
             stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
             settings=settings, t0=t0, executor=executor,
         )
+        _close(report, start, raw, plan, checks, skip)
     if report.input_error is not None and not partial:
         raise report.input_error
     return report
+
+
+def _close(report: Report, start: dict[str, Any], raw: RawSource, plan: Plan, checks: list[str] | None,
+           skip: list[str] | None) -> Report:
+    """The audit trail of a battery run: the seed of a seeded source, the selection and what it left out."""
+    seeds = source_seeds(raw)
+    left: list[dict[str, str]] = []
+    if checks or skip:  # the checks the selection left out: those of the same plan without a selection
+        from .checks.registry import matches
+
+        try:
+            full = make_plan(plan.fmt, plan.budget_bytes, strict_selectors=False)
+        except InputError:
+            full = plan
+        have = {c.id for c in plan.checks} | {s.split(": ")[0] for s in plan.skipped}
+        for c in full.checks:
+            if c.id in have:
+                continue
+            why = (f"left out by --skip {','.join(skip)}" if skip and matches(c.key, c.family, c.id, skip)
+                   else f"not selected by --checks {','.join(checks or [])}")
+            left.append({"check": c.id, "reason": why})
+    return close_audit(report, start, seeds=seeds, selection={"checks": checks, "skip": skip}, left_out=left)
+
+
+def source_seeds(raw: Any) -> list[dict[str, Any]]:
+    """The seed a seeded source (``--python``, ``--gen``) used, and where it came from, for the audit trail."""
+    kind = getattr(raw, "kind", "")
+    if kind not in ("python", "builtin") or not hasattr(raw, "seed_origin"):
+        return []
+    what = f"--python {raw.name}" if kind == "python" else f"--gen {getattr(raw, 'generator_name', raw.name)}"
+    seed = getattr(raw, "seed", None)
+    return [{"source": what, "seed": None if seed is None else int(seed), "origin": raw.seed_origin}]
 
 
 def render_text(report: Report, color: bool = False) -> str:
@@ -120,11 +164,21 @@ def render_text(report: Report, color: bool = False) -> str:
     return render(report, color=color)
 
 
-def sweep_seeds(*args, **kwargs):
-    """The seed sweep; see :func:`rngassay.seeds.sweep.sweep_seeds` (same arguments, returns a Report)."""
+def sweep_seeds(*args, argv: list[str] | None = None, **kwargs):
+    """The seed sweep; see :func:`rngassay.seeds.sweep.sweep_seeds` (same arguments, returns a Report). The
+    report's audit trail records ``argv`` (the command line passes it) or else this call and its options."""
     from .seeds.sweep import sweep_seeds as _sweep
 
-    return _sweep(*args, **kwargs)
+    opts = dict(kwargs, **({"seeds": args[0]} if args else {}))
+    start = begin_audit(argv, "rngassay.sweep_seeds", None if argv is not None else opts)
+    report = _sweep(*args, **kwargs)
+    src = report.source or {}
+    seeds = [{"source": "seed sweep", "seed": None, "origin": "the sweep's list of seeds",
+              "spec": src.get("seed_spec"), "count": src.get("seeds"), "first": src.get("first_seed"),
+              "last": src.get("last_seed")}]
+    return close_audit(report, start, seeds=seeds,
+                       selection={"checks": kwargs.get("checks"), "skip": kwargs.get("skip"),
+                                  "per-seed-checks": kwargs.get("per_seed_checks")})
 
 
 def assay_stream(
@@ -169,6 +223,7 @@ def fit(
     workers: int | None = 1,
     pit_seed: int = DEFAULT_PIT_SEED,
     progress: Callable[[str], None] | None = None,
+    argv: list[str] | None = None,
 ) -> Report:
     """Test a supplier's sample against its declared distribution (see :mod:`rngassay.battery.conformance`).
 
@@ -181,6 +236,10 @@ def fit(
     import time
 
     t0 = time.perf_counter()
+    start = begin_audit(argv, "rngassay.fit", None if argv is not None else {
+        "source": source, "dist": dist, "odds": None if odds is None else os.fspath(odds), "fmt": fmt,
+        "command": command, "shell": shell or None, "limit": limit, "checks": checks, "skip": skip,
+        "battery": battery, "alpha": alpha, "workers": workers, "pit_seed": pit_seed})
     if (dist is None) == (odds is None):
         raise InputError("give exactly one of --dist and --odds" if dist is not None else "give --dist SPEC or --odds FILE",
                          "", "--dist for a scipy.stats distribution (e.g. --dist 'norm(loc=0, scale=1)'), "
@@ -191,5 +250,8 @@ def fit(
     if progress:
         progress("reading the values")
     var = read_for(decl, source, fmt=fmt, command=command, shell=shell, limit=limit)
-    return fit_values(var, decl, checks=checks, skip=skip, battery=battery, alpha=alpha, workers=workers,
-                      pit_seed=pit_seed, progress=progress, t0=t0)
+    report = fit_values(var, decl, checks=checks, skip=skip, battery=battery, alpha=alpha, workers=workers,
+                        pit_seed=pit_seed, progress=progress, t0=t0)
+    seeds = [{"source": "--pit-seed, the randomised PIT", "seed": int(pit_seed),
+              "origin": "the default" if pit_seed == DEFAULT_PIT_SEED else "given"}]
+    return close_audit(report, start, seeds=seeds, selection={"checks": checks, "skip": skip})

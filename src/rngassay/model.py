@@ -2,6 +2,9 @@
 reads. It sits below the battery and the seed sweep, which build it; ``report/`` only renders it.
 
 The JSON form is versioned (``schema``); :func:`Report.from_dict` reads it back for ``rngassay diff``.
+Every report carries an audit trail (``Report.audit``, see :func:`begin_audit` and :func:`close_audit`): how the
+run was started, when (UTC), with which versions, every seed used, the selection, every check left out and why,
+and what completed of what was planned. Keys are only ever added to schema 1 (old readers ignore them).
 """
 
 from __future__ import annotations
@@ -98,6 +101,7 @@ class Report:
     tool_version: str = __version__
     schema: str = SCHEMA
     cautions: list[str] = field(default_factory=lambda: list(CAUTIONS))
+    audit: dict[str, Any] = field(default_factory=dict)  # the audit trail (see begin_audit / close_audit)
     # not part of the JSON: the bad-input error (what, where, hint) that stopped the run, when one did
     input_error: Any = field(default=None, repr=False, compare=False)
 
@@ -142,6 +146,7 @@ class Report:
             "checks": [c.to_dict() for c in self.checks],
             "notes": self.notes,
             "cautions": self.cautions,
+            "audit": self.audit,
         }
         return d
 
@@ -157,6 +162,97 @@ class Report:
             checks.append(CheckReport(**c))
         fields = {k: v for k, v in d.items() if k != "checks" and k in cls.__dataclass_fields__}
         return cls(checks=checks, **fields)
+
+
+# -- the audit trail --------------------------------------------------------------------------------
+AUDIT_TIMES = ("started_utc", "ended_utc")  # the only audit keys that differ between two runs of one command
+
+
+def utc_now() -> str:
+    """The current time in UTC, ISO 8601 with a 'Z', to the second."""
+    from datetime import datetime, timezone
+
+    return datetime.now(timezone.utc).isoformat(timespec="seconds").replace("+00:00", "Z")
+
+
+def versions() -> dict[str, str]:
+    """Versions of rngassay, Python and the numerical libraries a result depends on."""
+    import platform
+    from importlib import metadata
+
+    out = {"rngassay": __version__, "python": platform.python_version()}
+    for dist in ("numpy", "scipy", "numba"):
+        try:
+            out[dist] = metadata.version(dist)
+        except metadata.PackageNotFoundError:
+            out[dist] = "not installed"
+    return out
+
+
+def begin_audit(argv: list[str] | None = None, call: str | None = None,
+                options: dict[str, Any] | None = None) -> dict[str, Any]:
+    """The start of a run's audit trail: the command line as typed (``argv``), or for the Python API the
+    function called (``call``) and its options; the UTC start time."""
+    if argv is not None:
+        head: dict[str, Any] = {"invocation": "command line", "argv": [str(a) for a in argv]}
+    else:
+        head = {"invocation": "Python API", "call": call or "",
+                "options": {k: _plain(v) for k, v in (options or {}).items() if v is not None}}
+    return {**head, "started_utc": utc_now()}
+
+
+def _plain(v: Any) -> Any:
+    """An option value as JSON can hold it (objects handed over in Python are named by their type)."""
+    if v is None or isinstance(v, (bool, int, float, str)):
+        return v
+    if isinstance(v, (list, tuple)):
+        return [_plain(x) for x in v]
+    return f"<{type(v).__name__}>"
+
+
+def close_audit(report: "Report", start: dict[str, Any], *, seeds: list[dict[str, Any]] | None = None,
+                selection: dict[str, Any] | None = None, left_out: list[dict[str, str]] | None = None) -> "Report":
+    """Finish ``report.audit``: ``start`` (see :func:`begin_audit`), the UTC end, versions, the seeds used, the
+    selection, every check left out with the reason (those named in the notes, then ``left_out``), and what
+    completed of what was planned (kept from the run when it set one)."""
+    done = report.audit.get("completed")
+    named = left_out_from_notes(report.notes)
+    seen = {e["check"] for e in named}
+    report.audit = {
+        **start,
+        "ended_utc": utc_now(),
+        "versions": versions(),
+        "seeds": list(seeds or []),
+        "selection": dict(selection or {}),
+        "left_out": named + [e for e in (left_out or []) if e["check"] not in seen],
+        "completed": done if done is not None else [],
+    }
+    return report
+
+
+def left_out_from_notes(notes: list[str]) -> list[dict[str, str]]:
+    """The checks a report's notes say were left out, as {check, reason}: "left out ID: REASON" (the battery's
+    plan) and "ID left out: REASON" (fit and seed checks)."""
+    out = []
+    for n in notes:
+        if n.startswith("left out "):
+            body = n[len("left out "):]
+            pre = "pit: " if body.startswith("pit: ") else ""
+            check, sep, reason = body[len(pre):].partition(": ")
+            out.append({"check": pre + check, "reason": reason if sep else "left out"})
+        elif " left out: " in n:
+            check, _, reason = n.partition(" left out: ")
+            out.append({"check": check, "reason": reason})
+    return out
+
+
+def is_left_out_note(note: str) -> bool:
+    return note.startswith("left out ") or " left out: " in note
+
+
+def completed_line(completed: list[dict[str, Any]]) -> str:
+    """What completed of what was planned, e.g. "11 of 64 replicates; 40 of 95 checks complete"."""
+    return "; ".join(f"{c['done']} of {c['planned']} {c['what']}" for c in completed)
 
 
 def _json_default(o: Any) -> Any:

@@ -6,13 +6,20 @@ import pytest
 
 from rngassay import api
 from rngassay.errors import InputError
+from rngassay.model import AUDIT_TIMES
 
 
 def _strip(d):
+    """A report without what may differ between two runs of the same input and options: timings, the audit
+    trail's start and end times, and the worker count these tests vary (as used, and as the API call's option)."""
     d = dict(d)
     d.pop("elapsed_s")
     d["settings"] = {k: v for k, v in d["settings"].items() if k != "workers_used"}
     d["checks"] = [{k: v for k, v in c.items() if k != "seconds"} for c in d["checks"]]
+    audit = {k: v for k, v in d["audit"].items() if k not in AUDIT_TIMES}
+    assert set(d["audit"]) - set(audit) == set(AUDIT_TIMES)  # the times are there, and only they are dropped
+    audit["options"] = {k: v for k, v in audit["options"].items() if k != "workers"}
+    d["audit"] = audit
     return d
 
 

@@ -116,6 +116,7 @@ def run_battery(
         settings=dict(settings or {}, segments=plan.segments,
                       borderline_factor=G.BORDERLINE_FACTOR),
         notes=notes,
+        audit={"completed": completed_counts(outcomes)},
     )
     defer_signals(prev_deferred)
     report.input_error = stop_error  # bad data mid-run: the report of what finished, and the error to show
@@ -136,15 +137,24 @@ def stopped_report(stream: Stream, plan: Plan, reason: str, *, alpha: float = G.
         settings=dict(settings or {}, segments=plan.segments,
                       borderline_factor=G.BORDERLINE_FACTOR),
         notes=notes,
+        audit={"completed": completed_counts(outcomes)},
     )
+
+
+def completed_counts(outcomes: list[Outcome]) -> list[dict[str, Any]]:
+    """What finished of what was planned, for the audit trail: replicates (over all checks) and checks with
+    every replicate finished."""
+    planned = sum(len(o.results) for o in outcomes)
+    done = sum(1 for o in outcomes for r in o.results if r is not None)
+    whole = sum(1 for o in outcomes if o.results and all(r is not None for r in o.results))
+    return [{"what": "replicates", "done": done, "planned": planned},
+            {"what": "checks complete", "done": whole, "planned": len(outcomes)}]
 
 
 def completed_of_planned(outcomes: list[Outcome]) -> str:
     """What finished of what was planned, e.g. "completed 11 of 64 replicates (3 of 20 checks whole)"."""
-    planned = sum(len(o.results) for o in outcomes)
-    done = sum(1 for o in outcomes for r in o.results if r is not None)
-    whole = sum(1 for o in outcomes if o.results and all(r is not None for r in o.results))
-    return (f"completed {done} of {planned} replicates ({whole} of {len(outcomes)} checks whole)")
+    (r, c) = completed_counts(outcomes)
+    return f"completed {r['done']} of {r['planned']} replicates ({c['done']} of {c['planned']} checks whole)"
 
 
 def _round(r: G.RoundResult, o: Outcome) -> Round:

@@ -17,7 +17,15 @@ from . import catalog as _catalog, demo as _demo, fit as _fit, seeds as _seeds, 
 from .common import (EXIT_INTERNAL, EXIT_OK, EXIT_USAGE, Progress, check_workers, finish,  # noqa: F401 (re-exported)
                      input_paths, one_line, stop_signal)
 
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+class _RecordingGroup(click.Group):
+    """The command group; it keeps the arguments as given, for the reports' audit trail (see common.run_argv)."""
+
+    def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
+        ctx.meta["rngassay.argv"] = ["rngassay", *args]
+        return super().parse_args(ctx, args)
+
+
+@click.group(cls=_RecordingGroup, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="rngassay")
 def cli() -> None:
     """rngassay: assay streams of random numbers.

@@ -72,6 +72,21 @@ def report_options(f):
     return f
 
 
+def run_argv() -> list[str]:
+    """The command line as run (program name "rngassay", then the arguments as given), for the audit trail."""
+    ctx = click.get_current_context(silent=True)
+    argv = ctx.meta.get("rngassay.argv") if ctx is not None else None
+    return list(argv) if argv else ["rngassay", *sys.argv[1:]]
+
+
+def announce_seeds(report) -> None:
+    """One line on stderr for every seed drawn for this run (so that it can be repeated with --seed)."""
+    for s in (getattr(report, "audit", None) or {}).get("seeds", []):
+        if s.get("origin") == "drawn":
+            opt = s.get("source", "").split(" ")[0] or "the source"
+            click.echo(f"rngassay: seed {s['seed']} drawn for {opt}; repeat the run with --seed {s['seed']}", err=True)
+
+
 def split(values: tuple[str, ...]) -> list[str] | None:
     out = [p.strip() for v in values for p in v.split(",") if p.strip()]
     if values and not out:

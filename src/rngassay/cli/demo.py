@@ -7,7 +7,7 @@ import os
 import click
 
 from ..errors import InputError
-from .common import EXIT_FAIL, EXIT_OK, Progress, out, text, write_outputs
+from .common import EXIT_FAIL, EXIT_OK, Progress, out, run_argv, text, write_outputs
 
 
 DEMO_STREAMS = (
@@ -39,7 +39,7 @@ def demo(budget: str, out_dir: str | None, workers: int | None, quiet: bool, rep
         progress = Progress(quiet)
         try:
             report = api.assay(gen=name, seed=seed, budget=budget, progress=progress,
-                               workers=workers or (os.cpu_count() or 1))
+                               workers=workers or (os.cpu_count() or 1), argv=run_argv())
         finally:
             progress.done()
         report.notes.insert(0, f"demo: {title}; stand-in: --gen {name} --seed {seed}")

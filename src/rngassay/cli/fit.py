@@ -8,7 +8,8 @@ import click
 
 from ..errors import InputError
 from ..battery.defaults import DEFAULT_PIT_SEED
-from .common import Progress, check_outputs, check_source_given, check_workers, finish, input_paths, report_options, split
+from .common import (Progress, check_outputs, check_source_given, check_workers, finish, input_paths, report_options,
+                     run_argv, split)
 
 
 def register_cli(cli_group) -> None:
@@ -51,7 +52,8 @@ def register_cli(cli_group) -> None:
 
             report = api.fit(source, dist=dist_spec, odds=odds_path, fmt=fmt, command=command, shell=shell, limit=limit,
                          checks=split(checks), skip=split(skip), battery=not no_battery, alpha=alpha,
-                         workers=workers or (os.cpu_count() or 1), pit_seed=pit_seed, progress=progress)
+                         workers=workers or (os.cpu_count() or 1), pit_seed=pit_seed, progress=progress,
+                         argv=run_argv())
         finally:
             progress.done()
         finish(report, outputs, strict)

@@ -49,7 +49,7 @@ def register_cli(group: click.Group) -> click.Command:
     """Add the ``seeds`` command to ``group`` (once) and return it."""
     if "seeds" in group.commands:
         return group.commands["seeds"]
-    from .common import Progress, check_outputs, check_workers, finish, input_paths, report_options, split
+    from .common import Progress, check_outputs, check_workers, finish, input_paths, report_options, run_argv, split
 
     sets = "; ".join(f"{k}: {v}" for k, v in SEED_SETS.items())
 
@@ -108,7 +108,7 @@ def register_cli(group: click.Group) -> click.Command:
         """
         from ..signals import defer_signals
         from ..errors import InputError
-        from ..seeds.sweep import sweep_seeds
+        from ..api import sweep_seeds
 
         defer_signals()  # a stop signal while starting up is kept for the run, which then ends in a report
         check_workers(workers, cluster)
@@ -126,7 +126,7 @@ def register_cli(group: click.Group) -> click.Command:
                 per_seed_checks=split(per_seed), lags=lags, interleave=_ints(interleave, "--interleave"),
                 merge_budget=merge_budget, avalanche_seeds=avalanche_seeds, seed_bits=seed_bits,
                 early_bytes=early_bytes, alpha=alpha, workers=workers or (os.cpu_count() or 1) if cluster is None
-                else None, cluster=cluster, progress=progress,
+                else None, cluster=cluster, progress=progress, argv=run_argv(),
             )
         finally:
             progress.done()

@@ -6,8 +6,8 @@ import os
 
 import click
 
-from .common import (EXIT_OK, Progress, check_outputs, check_source_given, check_workers, finish, out,
-                     report_options, source_options, split, text, write_outputs)
+from .common import (EXIT_OK, Progress, announce_seeds, check_outputs, check_source_given, check_workers, finish,
+                     out, report_options, run_argv, source_options, split, text, write_outputs)
 
 
 @click.command("test")
@@ -46,16 +46,17 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
         result = api.assay(
             spec, budget=budget, checks=split(checks), skip=split(skip), alpha=alpha,
             workers=workers or "auto", retest=not no_retest, progress=progress, plan_only=plan_only,
-            cluster=cluster, partial=True,
+            cluster=cluster, partial=True, argv=run_argv(),
         )
     finally:
         progress.done()
-    if not plan_only and result.input_error is not None:  # bad data mid-run: file what finished, then the error
+    if not plan_only and result.input_error is not None:  # (a drawn seed is in the table and the reports)  # bad data mid-run: file what finished, then the error
         write_outputs(result, outputs)
         out(text(result))
         raise result.input_error
     if plan_only:
         out(result.describe())
         raise click.exceptions.Exit(EXIT_OK)
+    announce_seeds(result)
     finish(result, outputs, strict)
 

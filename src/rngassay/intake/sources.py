@@ -376,8 +376,22 @@ class PythonSource(ArraySource):
 
     def __init__(self, spec: str, seed: int | None = None):
         factory = load_python_spec(spec)
+        # the seed actually used, and where it came from (the report's audit trail records both): without
+        # --seed, a factory that takes a seed gets one drawn from OS entropy (64 bits), so the run can be repeated
+        # (a factory whose seed parameter defaults to an integer uses that default, as before)
+        self.seed, self.seed_origin = seed, "given"
+        takes, default = _seed_parameter(factory)
+        if seed is None:
+            if isinstance(default, int) and not isinstance(default, bool):
+                self.seed, self.seed_origin = default, "the factory's default"
+            elif takes:
+                import secrets
+
+                self.seed, self.seed_origin = secrets.randbits(64), "drawn"
+            else:
+                self.seed_origin = "none: the factory is called without a seed"
         try:
-            made = factory(seed) if seed is not None else _call_no_seed(factory)
+            made = factory(self.seed) if self.seed is not None else factory()
         except InputError:
             raise
         except Exception as e:
@@ -387,16 +401,17 @@ class PythonSource(ArraySource):
         super().__init__(spec, draw_function(made, spec), "python")
 
 
-def _call_no_seed(factory: Callable[..., Any]) -> Any:
+def _seed_parameter(factory: Callable[..., Any]) -> tuple[bool, Any]:
+    """Whether ``factory`` can be called with one positional argument (the seed), and that parameter's default
+    (None when it has none)."""
     try:
         sig = inspect.signature(factory)
-        required = [
-            p for p in sig.parameters.values()
-            if p.default is p.empty and p.kind in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD)
-        ]
     except (TypeError, ValueError):  # pragma: no cover - builtins without signature
-        required = []
-    return factory(0) if required else factory()
+        return False, None
+    for p in sig.parameters.values():
+        if p.kind in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD, p.VAR_POSITIONAL):
+            return True, None if p.default is p.empty or p.kind == p.VAR_POSITIONAL else p.default
+    return False, None
 
 
 class BuiltinSource(ArraySource):
@@ -407,6 +422,7 @@ class BuiltinSource(ArraySource):
 
         gen = make_generator(name, seed)
         self.seed = GENERATORS[name].default_seed if seed is None else seed
+        self.seed_origin = "given" if seed is not None else "the generator's default"
         super().__init__(f"{name} seed={self.seed}", lambda n: gen.read(n).tobytes(), "builtin")
         self.generator_name = name
 

@@ -14,7 +14,7 @@ import math
 from typing import Any
 
 from ..sizes import format_size
-from ..model import GRADES, CheckReport, Report
+from ..model import GRADES, CheckReport, Report, is_left_out_note
 
 P_TINY = 1e-300
 
@@ -120,6 +120,8 @@ figure.wide { grid-column: 1 / -1; }
 figure img { max-width: 100%; height: auto; display: block; margin: 0 auto; }
 figcaption { color: var(--muted); font-size: .88em; margin-top: .4rem; }
 ul.cautions li { margin-bottom: .3rem; }
+table.left-out td:last-child { overflow-wrap: anywhere; } table.left-out td:first-child { width: 30%; min-width: 9em; }
+h3 { font-size: .95rem; margin: 1.2rem 0 .4rem; }
 footer { margin-top: 2.5rem; color: var(--muted); font-size: .85em; }
 """
 
@@ -146,9 +148,13 @@ def _header(r: Report) -> list[str]:
         "</div></section>",
     ]
     if r.incomplete:
+        from .trail import completed_text
+
+        done = completed_text(r)
         out.append(
-            '<div class="incomplete"><strong>incomplete</strong> \u2014 the run stopped early; this report covers '
-            "only the checks that finished, and the verdict rests on them alone.</div>"
+            '<div class="incomplete"><strong>incomplete</strong> \u2014 the run stopped early'
+            + (f" ({_e(done)} of what was planned)" if done else "")
+            + "; this report covers only the checks that finished, and the verdict rests on them alone.</div>"
         )
     out.append("<h2>Run</h2>")
     out.append('<dl class="kv">')
@@ -295,6 +301,36 @@ def _plan(r: Report) -> list[str]:
     return out
 
 
+def _audit(r: Report) -> list[str]:
+    """The audit trail: how the run was started, when, versions, seeds, selection, and the checks left out."""
+    from . import trail as T
+
+    a = r.audit or {}
+    if not a:
+        return []
+    label = "Command line" if a.get("argv") else "Called as"
+    rows = [(label, f'<span class="mono">{_e(T.command_text(a))}</span>'),
+            ("Started (UTC)", _e(a.get("started_utc", ""))), ("Ended (UTC)", _e(a.get("ended_utc", "")))]
+    v = a.get("versions") or {}
+    rows.append(("Versions", _e(", ".join(f"{name} {v[k]}" for k, name in T.VERSION_NAMES if k in v))))
+    rows += [("Seed", _e(t)) for t in T.seed_texts(a)] or [("Seed", "no seeded source")]
+    rows.append(("Selection", _e(T.selection_text(a))))
+    done = T.completed_text(r)
+    if done:
+        rows.append(("Completed of planned", _e(done)))
+    out = ["<h2>Audit trail</h2>", '<dl class="kv audit">'] + [f"<dt>{k}</dt><dd>{v}</dd>" for k, v in rows] + ["</dl>"]
+    left = a.get("left_out") or []
+    if left:
+        out.append(f"<h3>Checks left out ({len(left)})</h3>")
+        out.append('<div class="wide"><table class="left-out"><thead><tr><th>reason</th><th class="num">checks</th>'
+                   "<th>which</th></tr></thead><tbody>")
+        for why, checks in T.left_out_groups(left):
+            out.append(f"<tr><td>{_e(why)}</td><td class=\"num\">{len(checks)}</td>"
+                       f"<td class=\"mono\">{_e('; '.join(checks))}</td></tr>")
+        out.append("</tbody></table></div>")
+    return out
+
+
 def _list(title: str, items: list[str], cls: str = "") -> list[str]:
     if not items:
         return []
@@ -318,7 +354,8 @@ def render_html(report: Report) -> str:
     parts += _check_table(r)
     parts += _figures(r)
     parts += _plan(r)
-    parts += _list("Notes", list(r.notes))
+    parts += _audit(r)
+    parts += _list("Notes", [n for n in r.notes if not (r.audit and is_left_out_note(n))])
     parts += _list("Cautions", list(r.cautions), "cautions")
     parts.append(
         f"<footer>rngassay {_e(r.tool_version)} \u00b7 report schema {_e(r.schema)}</footer>"

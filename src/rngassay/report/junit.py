@@ -14,7 +14,9 @@ Mapping (so that a CI job turns red exactly when the assay found a failure):
 
 The suite is named ``rngassay``; its ``<properties>`` record the source (``source.sha256``,
 ``source.bytes_read``, ``source.kind``, ``source.name``, ``source.format``) and the run (``verdict``,
-``combined_p``, ``alpha``, ``budget_bytes``, ``incomplete``, ``tool_version``). Text is escaped by
+``combined_p``, ``alpha``, ``budget_bytes``, ``incomplete``, ``tool_version``) and the audit trail
+(``audit.command``, ``audit.started_utc``, ``audit.ended_utc``, ``audit.version.*``, ``audit.seed.N``,
+``audit.selection``, ``audit.completed``, ``audit.left_out`` and ``audit.left_out.N``). Text is escaped by
 :mod:`xml.etree.ElementTree`; characters that XML 1.0 cannot carry at all are replaced by U+FFFD.
 """
 
@@ -24,6 +26,7 @@ import re
 import xml.etree.ElementTree as ET
 from typing import Any
 
+from . import trail as T
 from .html import format_p, format_params
 from ..model import CheckReport, Report
 
@@ -58,6 +61,25 @@ def _details(c: CheckReport) -> str:
     if c.null:
         lines.append(f"null hypothesis: {c.null}")
     return "\n".join(lines)
+
+
+def _audit_properties(r: Report) -> list[tuple[str, Any]]:
+    """The audit trail as ``audit.*`` properties (one per seed and per check left out, numbered from 1)."""
+    a = r.audit or {}
+    if not a:
+        return []
+    out: list[tuple[str, Any]] = [("audit.invocation", a.get("invocation", "")), ("audit.command", T.command_text(a)),
+                                  ("audit.started_utc", a.get("started_utc", "")),
+                                  ("audit.ended_utc", a.get("ended_utc", ""))]
+    out += [(f"audit.version.{k}", v) for k, v in (a.get("versions") or {}).items()]
+    out += [(f"audit.seed.{i}", t) for i, t in enumerate(T.seed_texts(a), 1)]
+    out.append(("audit.selection", T.selection_text(a)))
+    if a.get("completed"):
+        out.append(("audit.completed", T.completed_text(r)))
+    left = a.get("left_out") or []
+    out.append(("audit.left_out", len(left)))
+    out += [(f"audit.left_out.{i}", f"{e.get('check', '')}: {e.get('reason', '')}") for i, e in enumerate(left, 1)]
+    return out
 
 
 def render_junit(report: Report) -> str:
@@ -95,6 +117,7 @@ def render_junit(report: Report) -> str:
         ("incomplete", "true" if r.incomplete else "false"),
         ("tool_version", r.tool_version),
     ]
+    values += _audit_properties(r)
     for name, value in values:
         ET.SubElement(props, "property", {"name": name, "value": _x(value)})
     for c in r.worst_first():
@@ -113,6 +136,9 @@ def render_junit(report: Report) -> str:
             )
     if stopped:
         why = (r.incomplete_reason() or "no check finished") if r.incomplete else "no check finished"
+        done = T.completed_text(r)
+        if done and done not in why:
+            why += f" ({done})"
         case = ET.SubElement(suite, "testcase", {"classname": "rngassay.run", "name": "run complete"})
         el = ET.SubElement(case, "error", {"message": _x(f"incomplete run: {why}"), "type": "incomplete"})
         el.text = _x(f"verdict: {r.verdict}\n{why}")

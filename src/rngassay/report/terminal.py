@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-from ..model import Report
+from ..model import Report, is_left_out_note
+from .trail import completed_text, left_out_lines, trail_rows
 
 _COLORS = {"fail": "\033[31;1m", "borderline": "\033[33;1m", "pass": "\033[32m"}
 _RESET = "\033[0m"
@@ -37,7 +38,9 @@ def render(report: Report, color: bool = False, limit: int | None = None) -> str
         lines.append(f"  ... {len(rows) - limit} more checks, all graded as listed in the JSON/HTML report")
     counts = {g: sum(1 for c in report.checks if c.grade == g) for g in ("fail", "borderline", "pass")}
     lines.append("")
-    verdict = report.verdict + (" (incomplete run)" if report.incomplete else "")
+    done = completed_text(report) if report.incomplete else ""
+    verdict = report.verdict + ((f" (incomplete run: {done})" if done else " (incomplete run)") if report.incomplete
+                                else "")
     lines.append(f"verdict      {_grade(verdict, color).rstrip()}   "
                  f"{counts['fail']} fail, {counts['borderline']} borderline, {counts['pass']} pass "
                  f"of {len(report.checks)} checks; family-wise alpha {report.alpha:g} (Holm)")
@@ -46,8 +49,18 @@ def render(report: Report, color: bool = False, limit: int | None = None) -> str
     lines.append(f"bytes read   {src.get('bytes_read')}")
     lines.append(f"sha-256      {src.get('sha256')}")
     for n in report.notes:
-        if not n.startswith("left out"):
+        if not (report.audit and is_left_out_note(n)) and not n.startswith("left out"):
             lines.append(f"note         {n}")
+    lines += _footer(report)
     for c in report.cautions:
         lines.append(f"caution      {c}")
     return "\n".join(lines)
+
+
+def _footer(report: Report) -> list[str]:
+    """The audit trail in a few lines, and the checks left out with the reason (grouped when many)."""
+    lines = [f"{label:<12} {t}" for label, t in trail_rows(report)]
+    left = (report.audit or {}).get("left_out") or []
+    for t in left_out_lines(left):
+        lines.append(f"{'left out':<12} {t}")
+    return lines

@@ -449,8 +449,12 @@ def sweep_report(sp: SweepPlan, tasks: SweepTasks, factory: SeedFactory, alpha: 
         "window_spacing": sp.spacing, "per_seed_checks": [pc.id for pc in sp.per_seed],
         "borderline_factor": G.BORDERLINE_FACTOR,
     }
+    completed = [{"what": "seeds", "done": Sd, "planned": S}]
+    if sp.edges is not None:
+        completed.append({"what": "avalanche tasks", "done": len(tasks.av_parts), "planned": tasks.av_tasks})
     return G.graded_report("seeds", rows, alpha=alpha, source=source, budget_bytes=S * B, incomplete=reason is not None,
-                           elapsed_s=elapsed, plan=plan_rows, settings=settings, notes=notes)
+                           elapsed_s=elapsed, plan=plan_rows, settings=settings, notes=notes,
+                           audit={"completed": completed})
 
 
 def _sub_battery(arr: np.ndarray, rid: str, executor: Any, notes: list[str]) -> dict[str, Any] | None:
