@@ -159,7 +159,7 @@ def test_an_interrupted_report_says_what_completed_of_what_was_planned(tmp_path)
     plan = api.assay(str(p), plan_only=True, checks=["classic"])
 
     def progress(text):
-        if text.startswith("segment 3/"):
+        if "segment 3/" in text:  # the runner says "checks: segment 3/4 read, ..."
             os.kill(os.getpid(), signal.SIGINT)
 
     rep = api.assay(str(p), workers=1, progress=progress, checks=["classic"])
