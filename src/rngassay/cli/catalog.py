@@ -19,6 +19,8 @@ def catalog() -> None:
     out("Input formats (--format):")
     out("  " + "  ".join(FORMATS))
     out("  text takes floats in [0, 1), or integers with --range LO:HI")
+    out("  hex takes bytes as hex digits (white-space-separated tokens, either case, optional 0x), read like u1")
+    out("  with no --format, a file or stdin that starts with printed numbers or hex digits is refused (exit 2)")
     out("")
     out("Built-in generators (--gen NAME, rngassay emit NAME):")
     width = max(len(n) for n in GENERATORS)

@@ -31,7 +31,8 @@ def source_options(f):
     opts = [
         click.argument("source", required=False),
         click.option("--format", "fmt", default=None, metavar="F",
-                     help="Input format: u1 (raw bytes, default), <u2 >u2 <u4 >u4 <u8 >u8, <f4 <f8, text."),
+                     help="Input format: u1 (raw bytes, default), <u2 >u2 <u4 >u4 <u8 >u8, <f4 <f8, text, hex "
+                          "(bytes as hex digits). With none, printed numbers or hex are refused: name the format."),
         click.option("--range", "value_range", default=None, metavar="LO:HI",
                      help="Inclusive range of text integers, e.g. 1:6 for a die."),
         click.option("--command", default=None, metavar="CMD",

@@ -7,6 +7,9 @@ Format names follow numpy's dtype vocabulary:
 - ``<f4 <f8``                 IEEE floats that claim to be uniform on [0, 1)
 - ``text``                    numbers separated by white space (spaces, tabs, newlines): floats in
                               [0, 1), or, with ``--range LO:HI``, integers in that inclusive range
+- ``hex``                     bytes written as hex digits: white-space-separated tokens, either case,
+                              optional ``0x`` prefix, two digits per byte (:mod:`rngassay.intake._hex`);
+                              the decoded bytes are assayed exactly like ``u1``
 
 Decoders are incremental: :meth:`Decoder.feed` takes chunks of any size (a value may be split across
 chunk boundaries anywhere) and returns the values completed so far; :meth:`Decoder.finish` checks
@@ -22,9 +25,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ._hex import HexDecoder
 
 BINARY_FORMATS = ("u1", "<u2", ">u2", "<u4", ">u4", "<u8", ">u8", "<f4", "<f8")
-FORMATS = BINARY_FORMATS + ("text",)
+ENCODED_FORMATS = ("hex",)  # bytes written as text: decoded, then assayed like u1
+FORMATS = BINARY_FORMATS + ("text",) + ENCODED_FORMATS
 
 #: Longest text token accepted (bytes): far beyond any printed number; a stream with no white space in
 #: this many bytes is not text of numbers (e.g. /dev/zero), and is refused instead of buffered without end.
@@ -55,6 +60,8 @@ class Format:
     decimals  -- text floats: the printed grid 10^-decimals every value lies on, when read whole and found
     grid_bits -- floats: the fraction bits every value carries (all values are multiples of 2^-grid_bits),
                  when read whole before planning; None = not known in advance (judged per segment)
+    encoding  -- "hex" when the values (bytes) are written as text and decoded: itemsize, budgets and
+                 views count decoded bytes, while the stream's byte count and SHA-256 cover the input
     """
 
     name: str
@@ -65,10 +72,16 @@ class Format:
     hi: int | None = None
     decimals: int | None = None
     grid_bits: int | None = None
+    encoding: str | None = None
 
     @property
     def is_binary(self) -> bool:
         return self.itemsize > 0
+
+    @property
+    def is_raw(self) -> bool:
+        """Binary and read as is: every value is ``itemsize`` input bytes (not text, not hex)."""
+        return self.itemsize > 0 and self.encoding is None
 
     @property
     def is_float(self) -> bool:
@@ -113,6 +126,10 @@ def parse_format(name: str | None, value_range: str | tuple[int, int] | None = N
         if rng is not None:
             return Format("text", np.dtype(np.int64), 0, "text-integers", rng[0], rng[1])
         return Format("text", np.dtype(np.float64), 0, "text-floats")
+    if name == "hex":
+        if rng is not None:
+            raise InputError("--range does not apply to --format hex (its values are bytes)", "", "drop --range")
+        return Format("hex", np.dtype(np.uint8), 1, "bytes", encoding="hex")
     if rng is not None:
         raise InputError(
             f"--range applies to --format text only, not {name!r}", "", "drop --range or use --format text"
@@ -148,6 +165,7 @@ class Decoder:
         self._line = 1  # text: line number at the start of the carry
         self.wrapped_ones = 0  # text floats printed as 1.000...0 (rounded from just below 1), read as 0.0
         self.values = 0  # values produced so far
+        self._hex = HexDecoder(where) if fmt.encoding == "hex" else None
 
     # -- binary ---------------------------------------------------------------------------------
     def _feed_binary(self, chunk: bytes) -> np.ndarray:
@@ -321,13 +339,18 @@ class Decoder:
         """Decode a chunk; returns the values completed by it (possibly none)."""
         if not chunk:
             return np.empty(0, dtype=self.fmt.dtype)
-        out = self._feed_binary(chunk) if self.fmt.is_binary else self._feed_text(chunk)
+        if self._hex is not None:
+            out = self._hex.feed(chunk)
+        else:
+            out = self._feed_binary(chunk) if self.fmt.is_binary else self._feed_text(chunk)
         self.offset += len(chunk)
         self.values += len(out)
         return out
 
     def finish(self) -> np.ndarray:
         """End of stream: return the last values, or raise if a partial value is left over."""
+        if self._hex is not None:
+            return self._hex.finish()
         if self.fmt.is_binary:
             if self._carry:
                 n = len(self._carry)
