@@ -203,6 +203,12 @@ def _pack_fields(m: np.ndarray, r: int) -> np.ndarray:
     return np.packbits(bits.ravel())
 
 
+def _words_of_bits(packed: np.ndarray, nbits: int) -> np.ndarray:
+    """The whole 32-bit words (read big-endian) of a packed bit sequence of ``nbits`` bits: the padding bits of
+    its last byte never enter a word."""
+    return packed[: (nbits // 32) * 4].view(">u4").astype(np.uint32)
+
+
 _REV8 = np.array([int(f"{i:08b}"[::-1], 2) for i in range(256)], dtype=np.uint8)
 
 
@@ -259,8 +265,7 @@ def as_words32(vals: np.ndarray, fmt: Format) -> np.ndarray:
         m, r = _float_fields(vals, fmt)
         if r >= 32:
             return (m >> np.uint64(r - 32)).astype(np.uint32)
-        packed = _pack_fields(m, r)
-        return _trim(packed, 4).view(">u4").astype(np.uint32)
+        return _words_of_bits(_pack_fields(m, r), int(m.size) * r)
     if fmt.kind == "bytes":
         return _trim(np.ascontiguousarray(vals), 4).view("<u4").astype(np.uint32, copy=False)
     if fmt.kind != "words":
