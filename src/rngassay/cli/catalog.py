@@ -19,6 +19,7 @@ def catalog() -> None:
     out("Input formats (--format):")
     out("  " + "  ".join(FORMATS))
     out("  text takes floats in [0, 1), or integers with --range LO:HI")
+    out("  word formats take --range LO:HI too (e.g. 1:2147483646): uniforms (x-LO)/(HI-LO+1), bits only if a power of two")
     out("  hex takes bytes as hex digits (white-space-separated tokens, either case, optional 0x), read like u1")
     out("  with no --format, a file or stdin that starts with printed numbers or hex digits is refused (exit 2)")
     out("")
