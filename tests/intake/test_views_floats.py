@@ -52,6 +52,18 @@ def test_float32_views_take_only_24_bits():
     assert "fraction-tail" not in views.available_windows(F4, "words32")
 
 
+@pytest.mark.parametrize("n, r", [(1, 31), (5, 6), (7, 25), (9, 30), (33, 1), (3, 24)])
+def test_words32_of_short_fields_hold_no_padding_bit(n, r):
+    """Fields of r < 32 bits: the words32 view holds the whole words of the n r-bit sequence only (the padding bits
+    of the last packed byte are not data: before, n = 1, r = 31 gave one word ending in a padding 0)."""
+    fmt = dataclasses.replace(F8, grid_bits=r)
+    m = np.random.default_rng(n * 100 + r).integers(0, 2**r, n)
+    u = m * 2.0**-r
+    seq = "".join(format(int(v), f"0{r}b") for v in m)
+    w = views.as_words32(u, fmt)
+    assert w.tolist() == [int(seq[32 * i : 32 * i + 32], 2) for i in range(len(seq) // 32)]
+
+
 def test_six_printed_decimals_carry_exactly_six_fair_bits():
     # u = k / 10^6: floor(u * 2^6) = floor(k / 5^6), and each of the 64 results takes exactly 5^6 grid
     # points (exact arithmetic over the whole grid)

@@ -225,6 +225,10 @@ def make_plan(
             # printed decimals have a grid of their own (e.g. 1e-6) that the format does not declare
             plan.skipped.append(f"{key}: text floats are rounded to their printed digits, so their grid is unknown")
             continue
+        if spec.resolution_param and not views.binary_grid(fmt):
+            plan.skipped.append(f"{key}: the uniforms (x - LO)/{fmt.range_size} are not on a 2^-b grid, which its law "
+                                "assumes")
+            continue
         per_value = views.input_bytes_per_value(fmt, spec.view)
         seg_for_check, reps = seg, R
         if fmt.is_binary and not spec.cheap and not spec.sample and seg * R > CHECK_CAP_BYTES:

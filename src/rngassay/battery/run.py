@@ -419,15 +419,20 @@ def run_plan(
     return PlanRun(outcomes, reason is None, reason, error)
 
 
+def _bytes_had(stream: Stream, fmt: Format) -> int:
+    """Bytes a binary stream gave: as read, or, for hex input, as decoded (what the plan counts)."""
+    return stream.bytes_read if fmt.is_raw else stream.values_read * fmt.itemsize
+
+
 def _read_segment(stream: Stream, plan: Plan) -> np.ndarray:
     from ..errors import InputError
 
     n = plan.segment_bytes // plan.fmt.itemsize if plan.fmt.is_binary else plan.segment_bytes
     vals = stream.read_values(n)  # an empty source raises "empty stream" here
     if vals.size < n:  # a pipe or device planned for its --budget ended early
-        unit, have = ("bytes", stream.bytes_read) if plan.fmt.is_binary else ("values", stream.values_read)
+        unit, have = ("bytes", _bytes_had(stream, plan.fmt)) if plan.fmt.is_binary else ("values", stream.values_read)
         size = stream.source.size_hint()  # a file's size when it was opened
-        if plan.fmt.is_binary and size is not None and have < size:
+        if plan.fmt.is_raw and size is not None and have < size:
             raise InputError(
                 f"the file shrank while it was read: it held {size} bytes when opened, and ended after {have}",
                 stream.source.where,

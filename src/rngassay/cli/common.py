@@ -32,9 +32,11 @@ def source_options(f):
     opts = [
         click.argument("source", required=False),
         click.option("--format", "fmt", default=None, metavar="F",
-                     help="Input format: u1 (raw bytes, default), <u2 >u2 <u4 >u4 <u8 >u8, <f4 <f8, text."),
+                     help="Input format: u1 (raw bytes, default), <u2 >u2 <u4 >u4 <u8 >u8, <f4 <f8, text, hex "
+                          "(bytes as hex digits). With none, printed numbers or hex are refused: name the format."),
         click.option("--range", "value_range", default=None, metavar="LO:HI",
-                     help="Inclusive range of text integers, e.g. 1:6 for a die."),
+                     help="Inclusive range of the values: text integers (e.g. 1:6 for a die), or words of "
+                          "<u2..>u8 (e.g. 1:2147483646 for a multiplicative 31-bit generator)."),
         click.option("--command", default=None, metavar="CMD",
                      help="Read the standard output of this command (run without a shell)."),
         click.option("--shell", is_flag=True, help="Run --command through the shell."),

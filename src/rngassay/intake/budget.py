@@ -51,7 +51,9 @@ def resolve(stream: Stream, budget: Budget, plan_only: bool = False) -> Resolved
     """Apply the run's rules to an open stream (see the module's docstring); reading ahead is interruptible."""
     explicit, budget_bytes = budget.explicit, budget.amount
     f = stream.fmt
-    size = stream.source.size_hint()
+    # hex: the file's size counts digits and white space, not the decoded bytes the budget counts; unknown
+    # until decoded, so it is read like a pipe (read ahead up to the budget, or planned for an explicit one)
+    size = stream.source.size_hint() if f.encoding is None else None
     shared = not stream.unlimited
     if shared:
         if size == 0:
@@ -91,14 +93,15 @@ def resolve(stream: Stream, budget: Budget, plan_only: bool = False) -> Resolved
             # that budget and read in segments like a file of that size (bounded memory).
             stream = buffered(stream, budget_bytes)
             whole = budget_bytes - budget_bytes % f.itemsize
-            if explicit and stream.bytes_read < whole:
+            got = stream.source.values_total * f.itemsize  # bytes read (hex: decoded bytes)
+            if explicit and got < whole:
                 raise InputError(
-                    f"stream is shorter than the plan needs ({whole} bytes needed, "
-                    f"{stream.bytes_read} available)",
+                    f"stream is shorter than the plan needs ({whole} bytes needed, {got} available"
+                    + (", decoded from hex)" if f.encoding else ")"),
                     stream.source.where,
                     "give a smaller --budget",
                 )
-            budget_bytes = min(budget_bytes, stream.bytes_read)
+            budget_bytes = min(budget_bytes, got)
     grid_note = None
     if isinstance(stream, MemoryStream) and f.kind in ("floats", "text-floats"):
         f, grid_note = value_grid(f, stream.source.vals)

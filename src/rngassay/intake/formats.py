@@ -7,6 +7,13 @@ Format names follow numpy's dtype vocabulary:
 - ``<f4 <f8``                 IEEE floats that claim to be uniform on [0, 1)
 - ``text``                    numbers separated by white space (spaces, tabs, newlines): floats in
                               [0, 1), or, with ``--range LO:HI``, integers in that inclusive range
+- ``<u2 ... >u8`` with ``--range LO:HI``: words whose values all lie in LO..HI (a 31-bit generator's
+                              outputs, or 1..2^31-2 of a multiplicative one); views in
+                              :mod:`rngassay.intake.views` ("ranged words"); a word outside the range is
+                              refused with its byte offset
+- ``hex``                     bytes written as hex digits: white-space-separated tokens, either case,
+                              optional ``0x`` prefix, two digits per byte (:mod:`rngassay.intake._hex`);
+                              the decoded bytes are assayed exactly like ``u1``
 
 Decoders are incremental: :meth:`Decoder.feed` takes chunks of any size (a value may be split across
 chunk boundaries anywhere) and returns the values completed so far; :meth:`Decoder.finish` checks
@@ -22,9 +29,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ._hex import HexDecoder
 
 BINARY_FORMATS = ("u1", "<u2", ">u2", "<u4", ">u4", "<u8", ">u8", "<f4", "<f8")
-FORMATS = BINARY_FORMATS + ("text",)
+WORD_FORMATS = ("<u2", ">u2", "<u4", ">u4", "<u8", ">u8")  # these also take --range LO:HI ("ranged words")
+ENCODED_FORMATS = ("hex",)  # bytes written as text: decoded, then assayed like u1
+FORMATS = BINARY_FORMATS + ("text",) + ENCODED_FORMATS
 
 #: Longest text token accepted (bytes): far beyond any printed number; a stream with no white space in
 #: this many bytes is not text of numbers (e.g. /dev/zero), and is refused instead of buffered without end.
@@ -50,11 +60,13 @@ class Format:
     name      -- one of FORMATS
     dtype     -- numpy dtype of a decoded value (float64 or int64 for text)
     itemsize  -- bytes per value in the stream (0 for text)
-    kind      -- "bytes", "words", "floats", "text-floats" or "text-integers"
-    lo, hi    -- inclusive range of text integers (only for "text-integers")
+    kind      -- "bytes", "words", "ranged-words", "floats", "text-floats" or "text-integers"
+    lo, hi    -- inclusive range of text integers ("text-integers") or of words ("ranged-words")
     decimals  -- text floats: the printed grid 10^-decimals every value lies on, when read whole and found
     grid_bits -- floats: the fraction bits every value carries (all values are multiples of 2^-grid_bits),
                  when read whole before planning; None = not known in advance (judged per segment)
+    encoding  -- "hex" when the values (bytes) are written as text and decoded: itemsize, budgets and
+                 views count decoded bytes, while the stream's byte count and SHA-256 cover the input
     """
 
     name: str
@@ -65,16 +77,39 @@ class Format:
     hi: int | None = None
     decimals: int | None = None
     grid_bits: int | None = None
+    encoding: str | None = None
 
     @property
     def is_binary(self) -> bool:
         return self.itemsize > 0
 
     @property
+    def is_raw(self) -> bool:
+        """Binary and read as is: every value is ``itemsize`` input bytes (not text, not hex)."""
+        return self.itemsize > 0 and self.encoding is None
+
+    @property
     def is_float(self) -> bool:
         return self.kind in ("floats", "text-floats")
 
+    @property
+    def range_size(self) -> int | None:
+        """R = HI - LO + 1 for a declared range, else None."""
+        return None if self.lo is None or self.hi is None else self.hi - self.lo + 1
+
+    @property
+    def range_bits(self) -> int | None:
+        """b when the declared range holds exactly 2^b values, else None."""
+        r = self.range_size
+        return r.bit_length() - 1 if r is not None and r & (r - 1) == 0 else None
+
     def describe(self) -> str:
+        if self.kind == "ranged-words":
+            r, b = self.range_size, self.range_bits
+            if b is not None:
+                return f"{self.name} values {self.lo}..{self.hi} (2^{b} values; views: uniforms, {b}-bit fields as bits)"
+            return (f"{self.name} values {self.lo}..{self.hi} ({r} values, not a power of two; views: uniforms "
+                    "only, no bit views)")
         if self.kind == "text-integers":
             return f"text integers {self.lo}..{self.hi}"
         if self.kind == "text-floats" and self.decimals is not None:
@@ -84,8 +119,8 @@ class Format:
         return self.name
 
 
-def parse_range(spec: str) -> tuple[int, int]:
-    """Parse ``LO:HI`` (inclusive, integers, LO < HI)."""
+def parse_range(spec: str, max_width: int = 2**62) -> tuple[int, int]:
+    """Parse ``LO:HI`` (inclusive, integers, LO < HI, HI - LO < max_width)."""
     m = re.fullmatch(r"\s*([+-]?\d+)\s*:\s*([+-]?\d+)\s*", spec or "")
     if not m:
         raise InputError(
@@ -94,7 +129,7 @@ def parse_range(spec: str) -> tuple[int, int]:
     lo, hi = int(m.group(1)), int(m.group(2))
     if hi <= lo:
         raise InputError(f"bad --range {spec!r}: HI must be greater than LO", "", "e.g. --range 1:59")
-    if hi - lo >= 2**62:
+    if hi - lo >= max_width:
         raise InputError(f"bad --range {spec!r}: too wide", "", "use a binary word format for wide ranges")
     return lo, hi
 
@@ -108,16 +143,22 @@ def parse_format(name: str | None, value_range: str | tuple[int, int] | None = N
             "",
             "use one of " + ", ".join(FORMATS) + " (see `rngassay catalog`)",
         )
-    rng = parse_range(value_range) if isinstance(value_range, str) else value_range
+    wide = 2**64 if name in WORD_FORMATS else 2**62
+    rng = parse_range(value_range, wide) if isinstance(value_range, str) else value_range
     if name == "text":
         if rng is not None:
             return Format("text", np.dtype(np.int64), 0, "text-integers", rng[0], rng[1])
         return Format("text", np.dtype(np.float64), 0, "text-floats")
-    if rng is not None:
-        raise InputError(
-            f"--range applies to --format text only, not {name!r}", "", "drop --range or use --format text"
-        )
+    if name == "hex":
+        if rng is not None:
+            raise InputError("--range does not apply to --format hex (its values are bytes)", "", "drop --range")
+        return Format("hex", np.dtype(np.uint8), 1, "bytes", encoding="hex")
     dt = np.dtype(name)
+    if rng is not None:
+        if name not in WORD_FORMATS:
+            raise InputError(f"--range applies to --format text and to word formats ({' '.join(WORD_FORMATS)}), "
+                             f"not {name!r}", "", "drop --range, or give the word format the values are written in")
+        return Format(name, dt, dt.itemsize, "ranged-words", *_word_range(name, dt, rng))
     if name == "u1":
         kind = "bytes"
     elif dt.kind == "f":
@@ -125,6 +166,30 @@ def parse_format(name: str | None, value_range: str | tuple[int, int] | None = N
     else:
         kind = "words"
     return Format(name, dt, dt.itemsize, kind)
+
+
+#: Smallest declared range of words: a power of two from 2^16 (a grid as fine as <u2 words'), any other size
+#: from 2^28 (see rngassay.intake.views: the uniforms (x - LO)/R lie on a grid of R points, and a check that cuts
+#: [0, 1) into d cells sees cell probabilities off by up to d/R of their size when R is not a power of two).
+MIN_RANGE_POW2, MIN_RANGE = 2**16, 2**28
+
+
+def _word_range(name: str, dt: np.dtype, rng: tuple[int, int]) -> tuple[int, int]:
+    lo, hi = int(rng[0]), int(rng[1])
+    top = 2 ** (8 * dt.itemsize) - 1
+    spec = f"--range {lo}:{hi}"
+    if lo < 0 or hi > top:
+        raise InputError(f"{spec} does not fit {name} words (0..{top})", "", "give the range the words' values lie in")
+    r = hi - lo + 1
+    pow2 = r & (r - 1) == 0
+    if r < (MIN_RANGE_POW2 if pow2 else MIN_RANGE):
+        raise InputError(
+            f"{spec} holds {r} values; a range of words must hold at least 2^28 values (2^16 if a power of two)",
+            "", "for a small set of outcomes write them as text and use --format text --range LO:HI")
+    if r > 2**53 and not pow2:
+        raise InputError(f"{spec} holds {r} values, more than 2^53 and not a power of two", "",
+                         "(x - LO)/R would not be exact in a 64-bit float: declare the power-of-two range the values fill")
+    return lo, hi
 
 
 # Text numbers: tokens may use only printable ASCII; '_' (which Python's float() and int() accept as a digit
@@ -148,6 +213,7 @@ class Decoder:
         self._line = 1  # text: line number at the start of the carry
         self.wrapped_ones = 0  # text floats printed as 1.000...0 (rounded from just below 1), read as 0.0
         self.values = 0  # values produced so far
+        self._hex = HexDecoder(where) if fmt.encoding == "hex" else None
 
     # -- binary ---------------------------------------------------------------------------------
     def _feed_binary(self, chunk: bytes) -> np.ndarray:
@@ -159,10 +225,23 @@ class Decoder:
         if whole == 0:
             return np.empty(0, dtype=self.fmt.dtype)
         vals = np.frombuffer(buf, dtype=self.fmt.dtype, count=whole // size)
-        if self.fmt.kind == "floats":
+        if self.fmt.kind == "ranged-words":
+            self._validate_range(vals, start_offset)
+        elif self.fmt.kind == "floats":
             self._validate_floats(vals, start_offset)
             vals = vals.astype(np.float64)
         return vals
+
+    def _validate_range(self, vals: np.ndarray, start_offset: int) -> None:
+        lo, hi = self.fmt.lo, self.fmt.hi
+        bad = (vals < lo) if lo else np.zeros(vals.size, dtype=bool)
+        if hi < 2 ** (8 * self.fmt.itemsize) - 1:
+            bad |= vals > hi
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise InputError(f"word {int(vals[i])} outside --range {lo}:{hi}",
+                             f"{self.where} byte offset {start_offset + i * self.fmt.itemsize}",
+                             "check --range (and the byte order of --format) against the generator's outputs")
 
     def _validate_floats(self, vals: np.ndarray, start_offset: int) -> None:
         ok = (vals >= 0) & (vals < 1)  # NaN compares False, so it fails here too
@@ -321,13 +400,18 @@ class Decoder:
         """Decode a chunk; returns the values completed by it (possibly none)."""
         if not chunk:
             return np.empty(0, dtype=self.fmt.dtype)
-        out = self._feed_binary(chunk) if self.fmt.is_binary else self._feed_text(chunk)
+        if self._hex is not None:
+            out = self._hex.feed(chunk)
+        else:
+            out = self._feed_binary(chunk) if self.fmt.is_binary else self._feed_text(chunk)
         self.offset += len(chunk)
         self.values += len(out)
         return out
 
     def finish(self) -> np.ndarray:
         """End of stream: return the last values, or raise if a partial value is left over."""
+        if self._hex is not None:
+            return self._hex.finish()
         if self.fmt.is_binary:
             if self._carry:
                 n = len(self._carry)

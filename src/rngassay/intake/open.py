@@ -9,7 +9,8 @@ from typing import Any
 
 from ..errors import InputError
 from .formats import parse_format
-from .sources import ArraySource, RawSource, draw_function, open_source
+from .sniff import SNIFF_BYTES, refuse_printed
+from .sources import ArraySource, FileSource, RawSource, StdinSource, draw_function, open_source
 from .stream import Stream
 
 
@@ -27,13 +28,18 @@ def open_stream(
     """Open a source and wrap it in a decoded, accounted :class:`Stream`.
 
     A built-in generator whose output is meant to be read in a format of its own (doubles: ``<f8``) is read
-    in that format when ``fmt`` is not given."""
+    in that format when ``fmt`` is not given. A file or standard input opened here with no ``fmt`` is sniffed
+    (:mod:`rngassay.intake.sniff`): printed numbers or hex digits stop with an error naming the format to pass."""
     if fmt is None and gen is not None and value_range is None:
         from ..generators import GENERATORS
 
         info = GENERATORS.get(gen)
         fmt = info.default_format if info is not None else None
-    f = parse_format(fmt, value_range)
+    sniffing = fmt is None and gen is None and command is None and python is None and (
+        source is None or isinstance(source, (str, os.PathLike)))
+    # a bad format is refused before a source is opened; --range with no --format only after sniffing (which
+    # names the format to pass when the input is printed numbers)
+    f = parse_format(fmt, value_range) if not (sniffing and value_range is not None) else None
     if isinstance(source, RawSource):
         raw = source
     elif source is not None and not isinstance(source, (str, os.PathLike)):
@@ -41,6 +47,14 @@ def open_stream(
         raw = ArraySource(type(source).__name__, draw_function(source, type(source).__name__), "python")
     else:
         raw = open_source(source, command=command, shell=shell, python=python, gen=gen, seed=seed)
+        if sniffing and isinstance(raw, (FileSource, StdinSource)):
+            try:
+                head = raw.peek(SNIFF_BYTES)
+                refuse_printed(head, len(head) < SNIFF_BYTES, raw.where)
+                f = f or parse_format(fmt, value_range)
+            except BaseException:
+                raw.close()
+                raise
     return Stream(raw, f)
 
 

@@ -55,7 +55,35 @@ class RawSource:
         self.close()
 
 
-class FileSource(RawSource):
+class _Peekable(RawSource):
+    """A source whose first bytes can be looked at without consuming them (:meth:`peek`): they are read
+    once, kept, and served again by :meth:`read` before the rest (so they are counted and hashed once)."""
+
+    _peeked = b""
+
+    def _read_raw(self, n: int) -> bytes:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def peek(self, n: int) -> bytes:
+        """The first ``n`` bytes (fewer only if the source ends first), left to be read again."""
+        if len(self._peeked) < n:
+            self._peeked += self._read_raw(n - len(self._peeked))
+        return self._peeked[:n]
+
+    def read(self, n: int) -> bytes:
+        if not self._peeked:
+            return self._read_raw(n)
+        head, self._peeked = self._peeked[:n], self._peeked[n:]
+        if len(head) == n:
+            return head
+        try:
+            return head + self._read_raw(n - len(head))
+        except InputError as e:  # the bytes served from the peek were consumed too
+            e.partial_bytes = head + getattr(e, "partial_bytes", b"")  # type: ignore[attr-defined]
+            raise
+
+
+class FileSource(_Peekable):
     kind = "file"
 
     def __init__(self, path: str | os.PathLike):
@@ -80,7 +108,7 @@ class FileSource(RawSource):
     def size_hint(self) -> int | None:
         return self._size
 
-    def read(self, n: int) -> bytes:
+    def _read_raw(self, n: int) -> bytes:
         parts = []
         got = 0
         while got < n:
@@ -99,14 +127,14 @@ class FileSource(RawSource):
         self._f.close()
 
 
-class StdinSource(RawSource):
+class StdinSource(_Peekable):
     kind = "stdin"
 
     def __init__(self, stream=None):
         super().__init__("stdin")
         self._f = stream if stream is not None else sys.stdin.buffer
 
-    def read(self, n: int) -> bytes:
+    def _read_raw(self, n: int) -> bytes:
         # BufferedReader.read(n) blocks until n bytes or end of file, whatever the pipe's chunking;
         # raw streams may return short reads, so loop.
         parts = []

@@ -26,15 +26,19 @@ class SourceInfo:
     format: str
     bytes_read: int
     sha256: str
+    decoded_bytes: int | None = None  # hex input: the bytes its digits decoded to (bytes_read counts the text)
 
     def to_dict(self) -> dict:
-        return {
+        d = {
             "kind": self.kind,
             "name": self.name,
             "format": self.format,
             "bytes_read": self.bytes_read,
             "sha256": self.sha256,
         }
+        if self.decoded_bytes is not None:
+            d["decoded_bytes"] = self.decoded_bytes
+        return d
 
 
 class Stream:
@@ -89,7 +93,7 @@ class Stream:
 
     def read_values(self, n: int) -> np.ndarray:
         """Up to ``n`` decoded values; fewer only when the source has ended."""
-        if self.fmt.is_binary and not self._pending:
+        if self.fmt.is_raw and not self._pending:
             return self._read_binary(n)
         while self._pending_n < n and not self.ended:
             b = self._pull(self._chunk)
@@ -132,7 +136,8 @@ class Stream:
                 raise InputError("empty stream: no values to test", self.source.where, "check the source produces data")
             per = self.fmt.itemsize
             if per:
-                need = f"{n * per} bytes needed, {self.bytes_read} available"
+                have = self.bytes_read if self.fmt.is_raw else self.values_read * per  # hex: decoded bytes
+                need = f"{n * per} bytes needed, {have} available"
             else:
                 need = f"{n} values needed, {self.values_read} available"
             raise InputError(
@@ -143,7 +148,9 @@ class Stream:
         return vals
 
     def info(self) -> SourceInfo:
-        return SourceInfo(self.source.kind, self.source.name, self.fmt.describe(), self.bytes_read, self._sha.hexdigest())
+        decoded = self.decoder.values if self.fmt.encoding is not None else None
+        return SourceInfo(self.source.kind, self.source.name, self.fmt.describe(), self.bytes_read, self._sha.hexdigest(),
+                          decoded)
 
     def close(self) -> None:
         self.source.close()

@@ -49,6 +49,29 @@ Input kinds (see :mod:`rngassay.intake.formats`): raw bytes (``u1``), unsigned w
     with ``(DITHER_SEED, segment)``: exactly U(0, 1) when the printed values are uniform on their grid
     (a randomised interval transform; common practice), so no check that cuts [0, 1) into cells that do
     not divide the grid can fail an honest, rounded stream.
+Ranged words (``<u2 .. >u8`` with ``--range LO:HI``)
+    The words of a generator whose outputs fill a range of R = HI - LO + 1 values (31-bit words, or
+    1..2^31-2 of a multiplicative generator); ``y = x - LO`` is uniform on [0, R) under the null.
+    ``uniforms``: ``y / R`` -- a float64 division of two exact integers (R <= 2^53), so correctly rounded,
+    and below 1; for R = 2^b > 2^53, ``(y >> (b - 53)) 2^-53`` (the top 53 bits, as for 64-bit words).
+    ``bits`` and ``words32``, only when R = 2^b: the b-bit fields y concatenated, most significant bit first,
+    into one bit sequence (the bits view), cut into 32-bit words read big-endian (the words32 view) -- the rule
+    of floats carrying r < 32 bits; exactly fair bits when y is uniform, and the constant bits above the range
+    are never shown to a check. No ``bytes``/``words64`` views and no windows.
+    When R is **not** a power of two there are **no bit views**: with 2^b < R < 2^(b+1) the top bit of a
+    (b+1)-bit field is 1 with probability (R - 2^b)/R, not 1/2, and even the b low bits are not uniform
+    (``y mod 2^b`` takes the values below R - 2^b twice as often as the others). Exact bits would need
+    rejection (keep y < 2^b, about half the words for 1..2^31-2), which makes the number of bits per word
+    random, and the plan could then not promise a check its sample size; so the bit-level checks are left out,
+    the format's description says "views: uniforms only", and the checks whose law assumes a 2^-b grid
+    (float resolution, tail counts, exact endpoints) are listed as skipped. The uniforms lie on a grid of R
+    points: a check that cuts [0, 1) into d cells sees cell probabilities off by less than 1/R each, a
+    chi-square noncentrality of less than n d^2 / R^2 on n values. The battery's largest cell count is
+    d = 2^16 (equidistribution, at large budgets); with R >= 2^28 (the smallest range accepted that is not a
+    power of two) that is below n / 2^24, under 0.05 of the statistic's standard deviation sqrt(2d) ~ 362 up
+    to n = 2^28 values (R = 2^31 - 2: below n / 2^30).
+    ``integers`` in [0, k): for R = 2^b and k = 2^j the top j bits of the field; otherwise ``y mod k`` after
+    rejecting ``y >= k floor(R / k)`` (exactly unbiased).
 ``integers``
     Unbiased integers in [0, k). Text integers with ``--range LO:HI``: ``value - LO`` with
     ``k = HI - LO + 1`` fixed by the declaration. Byte and word inputs: 32-bit words; for k a power
@@ -74,6 +97,8 @@ def available_views(fmt: Format) -> tuple[str, ...]:
     """Views that make sense for an input format."""
     if fmt.kind in ("bytes", "words"):
         return VIEW_NAMES
+    if fmt.kind == "ranged-words":
+        return ("words32", "bits", "uniforms", "integers") if fmt.range_bits is not None else ("uniforms", "integers")
     if fmt.kind in ("floats", "text-floats"):
         return ("words32", "bits", "uniforms", "integers")
     return ("integers",)
@@ -105,9 +130,22 @@ def available_windows(fmt: Format, view: str) -> tuple[str, ...]:
     return tuple(out)
 
 
+def binary_grid(fmt: Format) -> bool:
+    """Whether the uniforms view lies on a 2^-b grid (what resolution-aware checks assume): not so for ranged
+    words whose range is not a power of two."""
+    return fmt.kind != "ranged-words" or fmt.range_bits is not None
+
+
 def input_bytes_per_value(fmt: Format, view: str) -> float:
     """Stream bytes (binary) or values (text) consumed per view value. Bits: per bit."""
     size = fmt.itemsize
+    if fmt.kind == "ranged-words" and view in ("words32", "bits"):
+        b = fmt.range_bits
+        if b is None:
+            raise ValueError(f"no {view} view for {fmt.describe()}")
+        return size * 32.0 / b if view == "words32" else size / b
+    if fmt.kind == "ranged-words" and view in ("bytes", "words64"):
+        raise ValueError(f"no {view} view for {fmt.describe()}")
     if fmt.kind in ("floats", "text-floats") and view in ("words32", "bits"):
         per = float(size) if size else 1.0
         r = float_bits(fmt)
@@ -139,6 +177,8 @@ def uniform_resolution_bits(fmt: Format) -> int:
     """Resolution in bits of the uniforms view (the grid 2**-bits the values claim to live on)."""
     if fmt.kind == "bytes" or (fmt.kind == "words" and fmt.itemsize == 8):
         return 53
+    if fmt.kind == "ranged-words":  # a power-of-two range: its bits (otherwise no 2^-b grid: see binary_grid)
+        return min(53, fmt.range_bits if fmt.range_bits is not None else 53)
     if fmt.kind == "words":
         return 8 * fmt.itemsize
     if fmt.name == "<f4":
@@ -197,10 +237,29 @@ def _float_fields(vals: np.ndarray, fmt: Format) -> tuple[np.ndarray, int]:
 
 
 def _pack_fields(m: np.ndarray, r: int) -> np.ndarray:
-    """Concatenate the r-bit fields m (r < 32), most significant bit first, into packed bytes."""
-    be = m.astype(">u4").view(np.uint8).reshape(-1, 4)
-    bits = np.unpackbits(be, axis=1)[:, 32 - r :]
+    """Concatenate the r-bit fields m (r <= 64), most significant bit first, into packed bytes."""
+    w = 4 if r <= 32 else 8
+    be = np.ascontiguousarray(m.astype(f">u{w}")).view(np.uint8).reshape(-1, w)
+    bits = np.unpackbits(be, axis=1)[:, 8 * w - r :]
     return np.packbits(bits.ravel())
+
+
+def _words_of_bits(packed: np.ndarray, nbits: int) -> np.ndarray:
+    """The whole 32-bit words (read big-endian) of a packed bit sequence of ``nbits`` bits: the padding bits of
+    its last byte never enter a word."""
+    return packed[: (nbits // 32) * 4].view(">u4").astype(np.uint32)
+
+
+def _ranged(vals: np.ndarray, fmt: Format) -> np.ndarray:
+    """y = x - LO as uint64 (every x was checked to lie in LO..HI when it was decoded)."""
+    return vals.astype(np.uint64) - np.uint64(fmt.lo)
+
+
+def _ranged_fields(vals: np.ndarray, fmt: Format) -> tuple[np.ndarray, int]:
+    b = fmt.range_bits
+    if b is None:
+        raise ValueError(f"no bit views for {fmt.describe()}: the range is not a power of two")
+    return _ranged(vals, fmt), b
 
 
 _REV8 = np.array([int(f"{i:08b}"[::-1], 2) for i in range(256)], dtype=np.uint8)
@@ -244,6 +303,14 @@ def dithered_uniforms(vals: np.ndarray, decimals: int, segment: int, seed: int =
     return u
 
 
+def ranged_uniforms(vals: np.ndarray, fmt: Format) -> np.ndarray:
+    """(x - LO) / R for ranged words (module docstring)."""
+    y, r, b = _ranged(vals, fmt), fmt.range_size, fmt.range_bits
+    if r is not None and r <= 2**53:
+        return y.astype(np.float64) / float(r)
+    return (y >> np.uint64(b - 53)).astype(np.float64) * 2.0**-53  # R = 2^b > 2^53 (parse_format ensures it)
+
+
 def as_bytes(vals: np.ndarray, fmt: Format) -> np.ndarray:
     if fmt.kind not in ("bytes", "words"):
         raise ValueError(f"no byte view for {fmt.describe()}")
@@ -255,12 +322,14 @@ def _trim(a: np.ndarray, multiple: int) -> np.ndarray:
 
 
 def as_words32(vals: np.ndarray, fmt: Format) -> np.ndarray:
+    if fmt.kind == "ranged-words":
+        y, b = _ranged_fields(vals, fmt)
+        return _words_of_bits(_pack_fields(y, b), int(y.size) * b)
     if fmt.kind in ("floats", "text-floats"):
         m, r = _float_fields(vals, fmt)
         if r >= 32:
             return (m >> np.uint64(r - 32)).astype(np.uint32)
-        packed = _pack_fields(m, r)
-        return _trim(packed, 4).view(">u4").astype(np.uint32)
+        return _words_of_bits(_pack_fields(m, r), int(m.size) * r)
     if fmt.kind == "bytes":
         return _trim(np.ascontiguousarray(vals), 4).view("<u4").astype(np.uint32, copy=False)
     if fmt.kind != "words":
@@ -291,6 +360,9 @@ def as_words64(vals: np.ndarray, fmt: Format) -> np.ndarray:
 
 def as_bits(vals: np.ndarray, fmt: Format) -> tuple[np.ndarray, int]:
     """(packed uint8 MSB-first, number of bits)."""
+    if fmt.kind == "ranged-words":
+        y, b = _ranged_fields(vals, fmt)
+        return _pack_fields(y, b), int(y.size) * b
     if fmt.kind in ("floats", "text-floats"):
         m, r = _float_fields(vals, fmt)
         if r >= 32:
@@ -307,6 +379,8 @@ def as_bits(vals: np.ndarray, fmt: Format) -> tuple[np.ndarray, int]:
 
 
 def as_uniforms(vals: np.ndarray, fmt: Format) -> np.ndarray:
+    if fmt.kind == "ranged-words":
+        return ranged_uniforms(vals, fmt)
     if fmt.kind in ("floats", "text-floats"):
         return vals.astype(np.float64, copy=False)
     if fmt.kind == "bytes" or (fmt.kind == "words" and fmt.itemsize == 8):
@@ -330,6 +404,8 @@ def as_integers(vals: np.ndarray, fmt: Format, k: int | None = None) -> tuple[np
         raise ValueError("k >= 2 is needed for an integer view")
     if fmt.kind in ("floats", "text-floats"):
         return np.minimum(np.floor(vals * k), k - 1).astype(np.int64), k
+    if fmt.kind == "ranged-words":
+        return _ranged_integers(vals, fmt, k), k
     if k > 2**32:
         raise ValueError("k must be at most 2**32")
     w = as_words32(vals, fmt)
@@ -339,6 +415,17 @@ def as_integers(vals: np.ndarray, fmt: Format, k: int | None = None) -> tuple[np
     limit = (2**32 // k) * k
     w = w[w < limit] if limit < 2**32 else w
     return (w % np.uint32(k)).astype(np.int64), k
+
+
+def _ranged_integers(vals: np.ndarray, fmt: Format, k: int) -> np.ndarray:
+    y, r, b = _ranged(vals, fmt), int(fmt.range_size), fmt.range_bits
+    if k > r:
+        raise ValueError(f"k = {k} is more than the {r} values of the range")
+    if b is not None and k & (k - 1) == 0:
+        return (y >> np.uint64(b - (k.bit_length() - 1))).astype(np.int64)
+    limit = (r // k) * k
+    y = y[y < np.uint64(limit)] if limit < r else y
+    return (y % np.uint64(k)).astype(np.int64)
 
 
 #: The one view table (plan, run and seeds read it): view name -> function(values, format) -> the view.
