@@ -20,6 +20,9 @@ from .signals import signal_guard, signal_name
 from .battery.grade import DEFAULT_ALPHA
 from .battery.plan import Plan, make_plan
 from .battery.run import auto_workers
+from .battery.growth import GrowthPlan, make_growth_plan, run_growth, stage_sizes
+from .intake.budget import Budget
+from .sizes import parse_size
 from .model import Report, begin_audit, close_audit
 from .battery.conformance import DEFAULT_PIT_SEED, fit_values, read_for
 from .checks.transform.declared import parse_dist_spec, read_odds
@@ -47,7 +50,8 @@ def assay(
     cluster: str | None = None,
     partial: bool = False,
     argv: list[str] | None = None,
-) -> Report | Plan:
+    grow_to: str | int | None = None,
+) -> Report | Plan | GrowthPlan:
     """Assay a stream and return its :class:`~rngassay.model.Report`.
 
     ``source`` is a file path, ``"-"`` for standard input, a :class:`RawSource`, a numpy generator, or a whole
@@ -63,6 +67,11 @@ def assay(
     ``partial=True`` the report of what finished is returned instead, marked incomplete, with the error in
     ``report.input_error`` (what the command line files before it shows the error).
 
+    ``grow_to`` (a size): growth to a decision (:mod:`rngassay.battery.growth`): the battery at ``budget``, then
+    on fresh data at 2x, 4x, ... up to ``grow_to``, stopping at the first stage where a check fails; the
+    family-wise error over all stages stays at ``alpha`` (alpha spending); no borderline retest. With
+    ``plan_only`` the :class:`~rngassay.battery.growth.GrowthPlan` is returned.
+
     The report's audit trail records ``argv`` (the command line passes it) or else this call and its options.
     A ``python`` factory without ``seed`` gets a seed drawn from OS entropy; the audit trail records it
     (``report.audit["seeds"]``) so that the run can be repeated.
@@ -73,7 +82,7 @@ def assay(
     start = begin_audit(argv, "rngassay.assay", None if argv is not None else {
         "source": source, "budget": budget, "fmt": fmt, "value_range": value_range, "command": command,
         "shell": shell or None, "python": python, "gen": gen, "seed": seed, "checks": checks, "skip": skip,
-        "alpha": alpha, "workers": workers, "retest": retest, "cluster": cluster})
+        "alpha": alpha, "workers": workers, "retest": retest, "cluster": cluster, "grow_to": grow_to})
     if not (0 < alpha < 1):
         raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
     executor = None
@@ -93,6 +102,12 @@ def assay(
     raw = stream.source  # (the seed of a seeded source is recorded from it)
     budget_req = requested(budget, stream.fmt)
     budget_bytes = budget_req.amount
+    growth = None
+    if grow_to is not None:  # the source must hold every stage: resolve the total read
+        unit = max(8, stream.fmt.itemsize) if stream.fmt.is_binary else 1
+        sizes = stage_sizes(budget_bytes, parse_size(grow_to, "--grow-to"), unit)
+        growth = (sizes[0], sizes[-1])
+        budget_req = Budget(sum(sizes), budget_req.unit, True)
     with signal_guard(), stream:
         try:
             resolved = resolve(stream, budget_req, plan_only)
@@ -106,6 +121,10 @@ def assay(
                                     "reading the source", alpha=alpha, t0=t0,
                                     settings={"workers_used": workers, "retest": retest})
             return _close(report, start, raw, plan, checks, skip)
+        if growth is not None:
+            return _grow(stream, f, growth, alpha=alpha, checks=checks, skip=skip, plan_only=plan_only,
+                         workers=workers, progress=progress, executor=executor, t0=t0, grid_note=grid_note,
+                         close=lambda rep, plan: _close(rep, start, raw, plan, checks, skip), partial=partial)
         plan = make_plan(f, budget_bytes, checks=checks, skip=skip)
         if plan_only:
             return plan
@@ -120,6 +139,33 @@ def assay(
             settings=settings, t0=t0, executor=executor,
         )
         _close(report, start, raw, plan, checks, skip)
+    if report.input_error is not None and not partial:
+        raise report.input_error
+    return report
+
+
+def _grow(stream: Stream, f: Any, growth: tuple[int, int], *, alpha: float, checks: list[str] | None,
+          skip: list[str] | None, plan_only: bool, workers: Any, progress: Any, executor: Any, t0: float,
+          grid_note: str | None, close: Callable[[Report, Plan], Report], partial: bool) -> Report | GrowthPlan:
+    """The growth run of :func:`assay` (its source already resolved for the total of all stages)."""
+    from .battery.run import Executor
+
+    gp = make_growth_plan(f, growth[0], growth[1], alpha, checks=checks, skip=skip)
+    if plan_only:
+        return gp
+    workers = auto_workers(gp.plans[-1], workers)
+    settings: dict[str, Any] = {"workers_used": workers, "retest": False}
+    if executor is not None:
+        settings = {"executor": executor.describe(), "retest": False}
+    if grid_note:
+        settings["value grid"] = grid_note
+
+    def stage(st: Stream, plan: Plan, *, alpha: float, executor: Any, progress: Any) -> Report:
+        return run_battery(st, plan, alpha=alpha, workers=workers, retest=False, progress=progress,
+                           settings=settings, t0=t0, executor=executor)
+
+    report = run_growth(stream, gp, run_stage=stage, executor=executor or Executor(workers), progress=progress)
+    close(report, gp.plans[len(report.growth["stages"]) - 1])  # what the last stage that ran left out
     if report.input_error is not None and not partial:
         raise report.input_error
     return report

@@ -102,6 +102,7 @@ class Report:
     schema: str = SCHEMA
     cautions: list[str] = field(default_factory=lambda: list(CAUTIONS))
     audit: dict[str, Any] = field(default_factory=dict)  # the audit trail (see begin_audit / close_audit)
+    growth: dict[str, Any] | None = None  # the stages of a growth run (battery.growth), else None
     # not part of the JSON: the bad-input error (what, where, hint) that stopped the run, when one did
     input_error: Any = field(default=None, repr=False, compare=False)
 
@@ -148,6 +149,8 @@ class Report:
             "cautions": self.cautions,
             "audit": self.audit,
         }
+        if self.growth is not None:  # a growth run's stages (only then: other reports keep their keys)
+            d["growth"] = self.growth
         return d
 
     def to_json(self) -> str:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ..model import Report, is_left_out_note
+from .stages import alpha_text, stage_lines
 from .trail import completed_text, left_out_lines, trail_rows
 
 _COLORS = {"fail": "\033[31;1m", "borderline": "\033[33;1m", "pass": "\033[32m"}
@@ -43,7 +44,9 @@ def render(report: Report, color: bool = False, limit: int | None = None) -> str
                                 else "")
     lines.append(f"verdict      {_grade(verdict, color).rstrip()}   "
                  f"{counts['fail']} fail, {counts['borderline']} borderline, {counts['pass']} pass "
-                 f"of {len(report.checks)} checks; family-wise alpha {report.alpha:g} (Holm)")
+                 f"of {len(report.checks)} checks; {alpha_text(report)}")
+    for t in stage_lines(report):
+        lines.append(f"growth       {t}")
     lines.append(f"combined p   {fmt_p(report.combined_p)} ({report.combined_method})")
     lines.append(f"source       {src.get('kind')}: {src.get('name')} (format {src.get('format')})")
     lines.append(f"bytes read   {src.get('bytes_read')}")
