@@ -2,7 +2,7 @@
 
     python benchmarks/power.py > benchmarks/power.md
 
-Budgets 1, 2, 4, ... 64 MiB (per check, fresh data: the battery's meaning of --budget for generators);
+Budgets 1, 2, 4, ... 64 MiB (the total read, shared by the checks, as for every source);
 seed 1 for every generator, 2 workers. For each flawed generator: the first budget whose run verdict is
 `fail`, the wall seconds of that run, and the checks that failed it (Holm-adjusted p < alpha). For each
 sound generator (and os.urandom, which cannot be seeded): the verdict at 8 MiB. Prints Markdown.
