@@ -9,6 +9,8 @@ from __future__ import annotations
 import os
 from typing import Any, Callable
 
+import numpy as np
+
 from .errors import InputError
 from .intake.budget import requested, resolve
 from .intake.memory import DEFAULT_BUDGET, stream_from_array  # noqa: F401 (stream_from_array: part of the API)
@@ -24,7 +26,7 @@ from .battery.growth import GrowthPlan, make_growth_plan, run_growth, stage_size
 from .intake.budget import Budget
 from .sizes import parse_size
 from .model import Report, begin_audit, close_audit
-from .battery.conformance import DEFAULT_PIT_SEED, fit_values, read_for
+from .battery.conformance import DEFAULT_PIT_SEED, FitPlan, fit_plan, fit_values, generator_uniforms, read_for
 from .checks.transform.declared import parse_dist_spec, read_odds
 
 
@@ -212,9 +214,12 @@ def render_text(report: Report, color: bool = False) -> str:
 
 def sweep_seeds(*args, argv: list[str] | None = None, **kwargs):
     """The seed sweep; see :func:`rngassay.seeds.sweep.sweep_seeds` (same arguments, returns a Report). The
-    report's audit trail records ``argv`` (the command line passes it) or else this call and its options."""
+    report's audit trail records ``argv`` (the command line passes it) or else this call and its options.
+    With ``plan_only=True`` the sweep's plan is returned (:class:`~rngassay.seeds.plan.SweepPlan`)."""
     from .seeds.sweep import sweep_seeds as _sweep
 
+    if kwargs.get("plan_only"):  # the plan only: nothing run, nothing to audit
+        return _sweep(*args, **kwargs)
     opts = dict(kwargs, **({"seeds": args[0]} if args else {}))
     start = begin_audit(argv, "rngassay.sweep_seeds", None if argv is not None else opts)
     report = _sweep(*args, **kwargs)
@@ -258,9 +263,13 @@ def fit(
     *,
     dist: str | None = None,
     odds: str | os.PathLike | None = None,
-    fmt: str = "text",
+    fmt: str | None = None,
     command: str | None = None,
     shell: bool = False,
+    python: str | None = None,
+    gen: str | None = None,
+    seed: int | None = None,
+    budget: str | int | None = None,
     limit: int | None = None,
     checks: list[str] | None = None,
     skip: list[str] | None = None,
@@ -269,23 +278,31 @@ def fit(
     workers: int | None = 1,
     pit_seed: int = DEFAULT_PIT_SEED,
     progress: Callable[[str], None] | None = None,
+    plan_only: bool = False,
     argv: list[str] | None = None,
-) -> Report:
+) -> Report | FitPlan:
     """Test a supplier's sample against its declared distribution (see :mod:`rngassay.battery.conformance`).
 
-    ``source``: a file path, ``"-"`` (standard input), or the values themselves as a numpy array
-    (or give ``command``).  Exactly one of ``dist`` (a scipy.stats spec) and ``odds`` (a CSV/TOML
-    odds file) is required.  ``checks``/``skip`` select by key, family ("fit", or the battery's
-    families), identifier, ``pit`` (the whole PIT battery) or ``pit: X``.  ``battery=False`` runs
-    the fit-specific checks only.  Returns a :class:`~rngassay.model.Report` (command "fit").
+    ``source``: a file path, ``"-"`` (standard input), or the values themselves as a numpy array; or give
+    ``command`` or ``python`` (their output read in ``fmt`` like a file: ``text`` (default), ``<f8``, ``<f4``, ...),
+    or ``gen`` (a built-in generator: its uniforms in [0, 1), as ``test`` reads it; declare e.g. ``uniform``).
+    ``seed`` seeds ``gen`` or ``python``. Exactly one of ``dist`` (a scipy.stats spec) and ``odds`` (a CSV/TOML
+    odds file) is required. ``budget``: the total read, as in :func:`assay` -- bytes for binary formats and for
+    ``gen``, values for text; a source shorter than it is refused. Without it a source is read whole (at most
+    2**25 values), and ``gen``/``python`` (endless) for 64 MiB. ``limit``: at most this many values (a shorter
+    source is fine). ``checks``/``skip`` select by key, family ("fit", or the battery's families), identifier,
+    ``pit`` (the whole PIT battery) or ``pit: X``. ``battery=False`` runs the fit-specific checks only. With
+    ``plan_only`` the values are read and validated and the :class:`~rngassay.battery.conformance.FitPlan` is
+    returned without running a check. Returns a :class:`~rngassay.model.Report` (command "fit").
     """
     import time
 
     t0 = time.perf_counter()
     start = begin_audit(argv, "rngassay.fit", None if argv is not None else {
         "source": source, "dist": dist, "odds": None if odds is None else os.fspath(odds), "fmt": fmt,
-        "command": command, "shell": shell or None, "limit": limit, "checks": checks, "skip": skip,
-        "battery": battery, "alpha": alpha, "workers": workers, "pit_seed": pit_seed})
+        "command": command, "shell": shell or None, "python": python, "gen": gen, "seed": seed, "budget": budget,
+        "limit": limit, "checks": checks, "skip": skip, "battery": battery, "alpha": alpha, "workers": workers,
+        "pit_seed": pit_seed})
     if (dist is None) == (odds is None):
         raise InputError("give exactly one of --dist and --odds" if dist is not None else "give --dist SPEC or --odds FILE",
                          "", "--dist for a scipy.stats distribution (e.g. --dist 'norm(loc=0, scale=1)'), "
@@ -295,9 +312,67 @@ def fit(
     decl = parse_dist_spec(dist) if dist is not None else read_odds(odds)  # type: ignore[arg-type]
     if progress:
         progress("reading the values")
-    var = read_for(decl, source, fmt=fmt, command=command, shell=shell, limit=limit)
+    var, raw = _fit_values_read(decl, source, fmt, command, shell, python, gen, seed, budget, limit)
+    if plan_only:
+        return fit_plan(var, decl, checks=checks, skip=skip, battery=battery)
     report = fit_values(var, decl, checks=checks, skip=skip, battery=battery, alpha=alpha, workers=workers,
                         pit_seed=pit_seed, progress=progress, t0=t0)
-    seeds = [{"source": "--pit-seed, the randomised PIT", "seed": int(pit_seed),
-              "origin": "the default" if pit_seed == DEFAULT_PIT_SEED else "given"}]
+    seeds = source_seeds(raw) + [{"source": "--pit-seed, the randomised PIT", "seed": int(pit_seed),
+                                  "origin": "the default" if pit_seed == DEFAULT_PIT_SEED else "given"}]
     return close_audit(report, start, seeds=seeds, selection={"checks": checks, "skip": skip})
+
+
+def _fit_values_read(decl, source, fmt, command, shell, python, gen, seed, budget, limit) -> tuple[Any, Any]:
+    """The values a fit runs on, read under the budget rules of :func:`fit`, and the raw source (or None)."""
+    from .intake.sources import open_source
+    from .intake.variates import MAX_VALUES
+    from .sizes import parse_size
+
+    in_memory = isinstance(source, np.ndarray) or (isinstance(source, (list, tuple)) and not isinstance(source, str))
+    spec = SourceSpec(path=None if in_memory or source is None else os.fspath(source), command=command, shell=shell,
+                      python=python, gen=gen, seed=seed, obj=source if in_memory else None)
+    if len(spec.given()) > 1:
+        raise InputError("more than one source given", "", "give one of: a file path, '-', --command, --python, --gen")
+    spec.check()
+    if budget is not None and limit is not None:
+        raise InputError("--budget and --limit given", "", "give one: --budget (the total read; a shorter source is "
+                         "refused) or --limit (at most N values)")
+    if budget is not None and in_memory:
+        raise InputError("--budget applies to a source that is read, not to values handed over", "",
+                         "slice the array instead")
+    nbytes = parse_size(budget, "--budget") if budget is not None else None
+    if gen is not None:
+        if fmt is not None:
+            raise InputError(f"--format {fmt} with --gen: a built-in generator is read in its own format", "",
+                             "drop --format (fit takes the generator's uniforms in [0, 1))")
+        if decl.kind != "continuous":
+            raise InputError(f"--gen {gen} gives uniforms in [0, 1), not outcomes of {decl.spec}", "",
+                             "declare a continuous distribution, e.g. --dist uniform")
+        return generator_uniforms(gen, seed, nbytes if nbytes is not None else DEFAULT_BUDGET, MAX_VALUES,
+                                  explicit=nbytes is not None)
+    fmt = fmt or "text"
+    from .intake.variates import FORMATS
+
+    if fmt not in FORMATS:
+        raise InputError(f"unknown format {fmt!r} for fit", "", "use text, <f8, <f4, >f8 or >f4")
+    per = 1 if fmt == "text" else int(fmt[2:])  # values (text) or bytes per value
+    if nbytes is None and limit is None and python is not None:  # endless: read as much as test would by default
+        limit = min(MAX_VALUES, DEFAULT_BUDGET // per)
+    want = None
+    if nbytes is not None:
+        want = nbytes // per
+        if want < 1:
+            raise InputError(f"--budget {budget} is less than one {per}-byte value", "", f"e.g. --budget {per * 1000}")
+        if want > MAX_VALUES:
+            unit = "values" if fmt == "text" else "bytes"
+            raise InputError(f"--budget {budget} is above fit's maximum of {MAX_VALUES * per} {unit}", "",
+                             "give a smaller --budget")
+        limit = want
+    raw = None if in_memory else open_source(spec.path, command=command, shell=shell, python=python, seed=seed)
+    var = read_for(decl, source if in_memory else raw, fmt=fmt, limit=limit, exact=want is not None)
+    if want is not None and var.values.size < want:
+        unit = "values" if fmt == "text" else "bytes"
+        raise InputError(f"stream is shorter than the budget ({want * per} {unit} needed, "
+                         f"{var.values.size * per} available)", str(var.source.get("name", "")),
+                         "give a smaller --budget (for text it counts values)")
+    return var, raw

@@ -222,12 +222,10 @@ def _jsonable(d: dict[str, Any]) -> dict[str, Any]:
     return out
 
 
-def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) -> Report | None:
-    """The uniform battery on the PIT values, planned and run here with the battery's parts; None (and a
-    note) when it is skipped or nothing of it can run. Its grades are provisional: the caller grades its
-    checks together with the fit-specific ones."""
+def _pit_plan(n: int, decl: Declaration, var: Variates, checks, skip, notes: list[str]):
+    """The uniform battery's plan for the ``n`` PIT values (ids prefixed ``pit: ``), or None (and a note) when it
+    is skipped or nothing of it can run."""
     from ..intake.formats import parse_format
-    from .battery import run_battery
     from .plan import make_plan
 
     bsel = _battery_patterns(checks)
@@ -238,12 +236,12 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
         notes.append("the uniform battery on the PIT values was skipped (--skip pit)")
         return None
     fmt = str(var.source.get("format"))
-    if decl.kind == "continuous" and fmt not in ("<f8", ">f8", "array"):
+    if decl.kind == "continuous" and fmt not in ("<f8", ">f8", "array") and not var.source.get("uniforms"):
         bskip = bskip + ["float resolution"]
         notes.append(f"PIT battery: float resolution left out: {fmt} variates are rounded, so their PIT values "
                      "repeat by construction")
     try:  # windows=False: the PIT values' last bits are rounding of F(x), not randomness
-        plan = make_plan(parse_format("<f8"), 8 * int(u.size), checks=bsel, skip=bskip or None,
+        plan = make_plan(parse_format("<f8"), 8 * int(n), checks=bsel, skip=bskip or None,
                          strict_selectors=False, windows=False)
     except InputError as e:
         if bsel is not None:
@@ -254,6 +252,18 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
     # the PIT battery's checks are named as this report shows them (plan, rows, notes of what was left out)
     plan.checks = [dataclasses.replace(pc, id=PIT_PREFIX + pc.id) for pc in plan.checks]
     plan.skipped = [PIT_PREFIX + s for s in plan.skipped]
+    return plan
+
+
+def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) -> Report | None:
+    """The uniform battery on the PIT values, planned and run here with the battery's parts; None (and a
+    note) when it is skipped or nothing of it can run. Its grades are provisional: the caller grades its
+    checks together with the fit-specific ones."""
+    from .battery import run_battery
+
+    plan = _pit_plan(int(u.size), decl, var, checks, skip, notes)
+    if plan is None:
+        return None
     with stream_from_array(u, "<f8", name=f"PIT values of {var.source.get('name')} under {decl.spec}",
                            kind="derived") as stream:
         rep = run_battery(stream, plan, alpha=alpha, workers=workers, retest=False, progress=progress,
@@ -261,6 +271,86 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
     if rep.input_error is not None:  # values made here are valid: bad data would be a fault of ours
         raise rep.input_error
     return rep
+
+
+@dataclasses.dataclass
+class FitPlan:
+    """What a fit would run on values already read (``rngassay fit --plan-only``): the fit-specific checks, the
+    PIT battery's plan (None: not run) and the total read from the source."""
+
+    declaration: str
+    values: int
+    bytes_read: int
+    source: str
+    fit_checks: list[str]
+    pit: Any
+    notes: list[str]
+
+    def describe(self) -> str:
+        lines = [f"fit plan: {len(self.fit_checks)} fit checks"
+                 + (f" and {len(self.pit.checks)} PIT battery checks" if self.pit is not None else ""),
+                 f"declared: {self.declaration}; source {self.source}",
+                 f"reads {self.values} values in all ({self.bytes_read} bytes); the PIT battery runs on the "
+                 f"{self.values} PIT values made from them (nothing more is read)", "",
+                 "fit checks (one sample each; run when the sample allows):"]
+        lines += [f"  {c}" for c in self.fit_checks] or ["  (none selected)"]
+        if self.pit is not None:
+            lines += ["", "PIT battery:"] + ["  " + ln for ln in self.pit.describe().splitlines()]
+        lines += [f"note: {n}" for n in self.notes]
+        return "\n".join(lines)
+
+
+def fit_plan(var: Variates, decl: Declaration, *, checks: list[str] | None = None, skip: list[str] | None = None,
+             battery: bool = True) -> FitPlan:
+    """The plan of :func:`fit_values` for these values, without running any check."""
+    from ..checks.registry import check_id
+
+    n = int(var.values.size)
+    if decl.kind == "continuous":
+        planned = [("anderson-darling", {})]
+        planned += [("tail count", {"q": q, "side": side}) for q in FIT_TAIL_LEVELS if n * q >= 1.0
+                    for side in ("lower", "upper")]
+        planned.append(("extreme value", {}))
+    else:
+        planned = [("outcome frequencies", {}), ("outcome deviation", {}), ("serial", {"d": 2}), ("serial", {"d": 3})]
+    ids = [check_id(k, p) for k, p in planned
+           if (checks is None or _matches(k, check_id(k, p), "fit", checks))
+           and not (skip and _matches(k, check_id(k, p), "fit", skip))]
+    notes: list[str] = []
+    pit = _pit_plan(n, decl, var, checks, skip, notes) if battery else None
+    if not battery:
+        notes.append("the uniform battery on the PIT values is not run (--no-battery)")
+    if not ids and pit is None:
+        raise InputError("no check matched the selection", "", "see the check names in a full run, or drop --checks/--skip")
+    return FitPlan(decl.spec, n, int(var.source.get("bytes_read", 0)), str(var.source.get("name", "")), ids, pit, notes)
+
+
+def generator_uniforms(gen: str, seed: int | None, budget_bytes: int, cap: int,
+                       explicit: bool = True) -> tuple[Variates, Any]:
+    """A built-in generator's output as fit sees it: uniforms in [0, 1), made from ``budget_bytes`` of its output
+    read as ``test`` reads it (its own format; the uniform view of :mod:`rngassay.intake.views`), at most ``cap``
+    of them (an ``explicit`` budget above that is refused). Returns the values and the raw source (whose seed the audit trail records)."""
+    from ..intake.open import open_stream
+    from ..intake.views import as_uniforms, input_bytes_per_value
+
+    stream = open_stream(gen=gen, seed=seed)
+    f = stream.fmt
+    per = input_bytes_per_value(f, "uniforms")  # bytes of output per uniform
+    n = int(budget_bytes // per)
+    if explicit and n > cap:
+        stream.close()
+        raise InputError(f"--budget {budget_bytes} bytes is above fit's maximum of {cap} uniforms "
+                         f"({int(cap * per)} bytes of --gen {gen})", "", "give a smaller --budget")
+    n = min(n, cap)
+    if n < 1:
+        stream.close()
+        raise InputError(f"--budget {budget_bytes} bytes gives no uniform from --gen {gen}", "",
+                         f"give at least {int(per)} bytes, e.g. --budget 1MiB")
+    with stream:
+        vals = stream.read_values(int(n * per) // f.itemsize)
+        u = np.ascontiguousarray(as_uniforms(vals, f)[:n], dtype=np.float64)
+        info = {**stream.info().to_dict(), "values": int(u.size), "uniforms": f"the uniform view of {f.describe()}"}
+    return Variates(u, info, truncated=False), stream.source
 
 
 def _matches(key: str, cid: str, family: str, patterns: list[str]) -> bool:

@@ -7,11 +7,12 @@ import sys
 import click
 
 from ..errors import InputError
-from .common import out, quiet_broken_pipe
+from .common import out, quiet_broken_pipe, quiet_option, shared
 
 
 @click.command()
-def catalog() -> None:
+@quiet_option("catalog shows no progress: accepted so that every command takes -q.")
+def catalog(quiet: bool) -> None:
     """List input formats, built-in generators and checks."""
     from ..generators import GENERATORS
     from ..intake.formats import FORMATS
@@ -40,10 +41,11 @@ def catalog() -> None:
 
 @click.command()
 @click.argument("name")
-@click.option("--seed", default=None, type=int, metavar="N", help="Seed (default: the generator's own default).")
+@shared("seed", "--seed", default=None, type=int, metavar="N")
 @click.option("--bytes", "nbytes", default=None, metavar="SIZE",
               help="How many bytes to write (KiB, MiB, GiB suffixes); default: until the reader closes the pipe.")
-def emit(name: str, seed: int | None, nbytes: str | None) -> None:
+@quiet_option("emit shows no progress: accepted so that every command takes -q.")
+def emit(name: str, seed: int | None, nbytes: str | None, quiet: bool) -> None:
     """Write the raw bytes of a built-in generator to standard output."""
     from ..generators import make_generator
     from ..sizes import parse_size

@@ -27,27 +27,122 @@ def out(text: str = "") -> None:
             pass
 
 
+class SharedOption(click.Option):
+    """An option whose meaning is the same in every command that has it: made only by the decorators below, which
+    give it the same name, type and help stem everywhere (``meaning`` names it; tests/test_cli_consistency.py
+    walks the commands and holds them to it). A command may add a sentence of its own after the stem."""
+
+    def __init__(self, *args: Any, meaning: str, stem: str, **kwargs: Any):
+        super().__init__(*args, **kwargs)
+        self.meaning, self.stem = meaning, stem
+
+
+def shared(meaning: str, *decls: str, tail: str = "", **kwargs: Any):
+    """A click option of the shared ``meaning`` (a key of :data:`MEANINGS`); ``tail`` is the command's own sentence."""
+    stem = MEANINGS[meaning]
+    return click.option(*decls, cls=SharedOption, meaning=meaning, stem=stem,
+                        help=stem + (" " + tail if tail else ""), **kwargs)
+
+
+#: The help stem of every shared option: the one meaning of the option wherever it appears.
+MEANINGS = {
+    "budget": "Total to read from the source: bytes for binary formats, values for text (SIZE, e.g. 64MiB, 512KiB, "
+              "or a plain count); a source shorter than an explicit budget is refused.",
+    "plan-only": "Print the plan (the checks with their parameters, and the total read) and stop: no check runs and "
+                 "no report is written.",
+    "checks": "Run only these checks: a key, its first word (e.g. monobit), a family or a full identifier; "
+              "comma-separated or repeated.",
+    "skip": "Leave out these checks (the same selectors as --checks).",
+    "command": "Read the standard output of this command (run without a shell).",
+    "shell": "Run --command through the shell.",
+    "python": "A Python factory FILE.py:NAME (or package.module:NAME) returning a numpy BitGenerator, Generator or "
+              "draw(n_bytes) callable.",
+    "gen": "A built-in reference generator (see `rngassay catalog`).",
+    "seed": "Seed of the generator (--gen, --python, or emit's NAME); default: the generator's own, and a --python "
+            "factory that takes a seed gets one drawn from OS entropy (printed and recorded).",
+    "format": "How the source's bytes are read:",
+    "json": "Write the report as JSON (versioned schema).",
+    "html": "Write a self-contained HTML report with figures.",
+    "junit": "Write JUnit XML: one test case per check.",
+    "strict": "Exit 1 for a borderline run too.",
+    "quiet": "Quiet: no progress display on stderr. Only the progress goes: the results, the report paths, a drawn "
+             "seed and error lines are still printed.",
+    "alpha": "Family-wise false-alarm rate of a run (Holm).",
+    "workers": "Worker processes (1 to 256).",
+    "cluster": "Run on a Dask cluster at this address, e.g. tcp://host:8786 (pip install 'rngassay[cluster]').",
+}
+
+
+def budget_option(default: str):
+    """``--budget SIZE``: the total read, as in ``test`` (``default`` says what happens without it)."""
+    return shared("budget", "--budget", default=None, metavar="SIZE", tail=default)
+
+
+def plan_only_option(tail: str = ""):
+    return shared("plan-only", "--plan-only", is_flag=True, tail=tail)
+
+
+def selection_options(tail: str = ""):
+    """``--checks SEL`` and ``--skip SEL`` (``tail``: what this command's selectors also name)."""
+    def deco(f):
+        f = shared("skip", "--skip", "skip", multiple=True, metavar="SEL")(f)
+        return shared("checks", "--checks", "checks", multiple=True, metavar="SEL", tail=tail)(f)
+    return deco
+
+
+def stream_source_options(f=None, *, seed: bool = True, tails: dict[str, str] | None = None):
+    """The sources a stream can come from: ``--command`` (``--shell``), ``--python``, ``--gen`` and ``--seed``.
+    Shared by ``test``, ``fit`` and ``seeds`` (``seeds`` has no ``--seed``: it sweeps seeds; ``tails`` add a
+    command's own sentence, e.g. how ``seeds`` passes each seed)."""
+    t = tails or {}
+
+    def deco(f):
+        opts = [
+            shared("command", "--command", default=None, metavar="CMD", tail=t.get("command", "")),
+            shared("shell", "--shell", is_flag=True),
+            shared("python", "--python", "python_spec", default=None, metavar="FILE.py:NAME",
+                   tail=t.get("python", "")),
+            shared("gen", "--gen", default=None, metavar="NAME", tail=t.get("gen", "")),
+        ]
+        if seed:
+            opts.append(shared("seed", "--seed", default=None, type=int, metavar="N", tail=t.get("seed", "")))
+        for o in reversed(opts):
+            f = o(f)
+        return f
+
+    return deco(f) if f is not None else deco
+
+
 def source_options(f):
-    """Options naming the source; shared by commands that read a stream."""
+    """Options naming the source of ``test``: a path (or '-'), its format and range, or a stream source."""
     opts = [
         click.argument("source", required=False),
-        click.option("--format", "fmt", default=None, metavar="F",
-                     help="Input format: u1 (raw bytes, default), <u2 >u2 <u4 >u4 <u8 >u8, <f4 <f8, text, hex "
-                          "(bytes as hex digits). With none, printed numbers or hex are refused: name the format."),
+        shared("format", "--format", "fmt", default=None, metavar="F",
+               tail="u1 (raw bytes, default), <u2 >u2 <u4 >u4 <u8 >u8, <f4 <f8, text, hex (bytes as hex digits). "
+                    "With none, printed numbers or hex are refused: name the format."),
         click.option("--range", "value_range", default=None, metavar="LO:HI",
                      help="Inclusive range of the values: text integers (e.g. 1:6 for a die), or words of "
                           "<u2..>u8 (e.g. 1:2147483646 for a multiplicative 31-bit generator)."),
-        click.option("--command", default=None, metavar="CMD",
-                     help="Read the standard output of this command (run without a shell)."),
-        click.option("--shell", is_flag=True, help="Run --command through the shell."),
-        click.option("--python", "python_spec", default=None, metavar="FILE.py:NAME",
-                     help="A factory returning a numpy BitGenerator, Generator or draw(n_bytes) callable."),
-        click.option("--gen", default=None, metavar="NAME", help="A built-in reference generator (see `rngassay catalog`)."),
-        click.option("--seed", default=None, type=int, metavar="N", help="Seed for --gen or --python."),
     ]
     for o in reversed(opts):
         f = o(f)
-    return f
+    return stream_source_options(f)
+
+
+def quiet_option(tail: str = ""):
+    return shared("quiet", "--quiet", "-q", is_flag=True, tail=tail)
+
+
+def alpha_option(tail: str = ""):
+    return shared("alpha", "--alpha", default=1e-3, type=float, show_default=True, tail=tail)
+
+
+def workers_option(tail: str):
+    return shared("workers", "--workers", default=None, type=int, metavar="N", tail=tail)
+
+
+def cluster_option(f):
+    return shared("cluster", "--cluster", default=None, metavar="ADDRESS")(f)
 
 
 def quiet_broken_pipe() -> None:
@@ -62,12 +157,14 @@ def quiet_broken_pipe() -> None:
 
 
 def report_options(f):
+    """Report paths (``--json``, ``--html``, ``--junit``), ``--strict`` and ``-q/--quiet``: the same in every command
+    that files a report."""
     opts = [
-        click.option("--json", "json_path", default=None, metavar="PATH", help="Write the report as JSON (versioned schema)."),
-        click.option("--html", "html_path", default=None, metavar="PATH", help="Write a self-contained HTML report with figures."),
-        click.option("--junit", "junit_path", default=None, metavar="PATH", help="Write JUnit XML: one test case per check."),
-        click.option("--strict", is_flag=True, help="Exit 1 for a borderline run too."),
-        click.option("--quiet", "-q", is_flag=True, help="No progress on stderr."),
+        shared("json", "--json", "json_path", default=None, metavar="PATH"),
+        shared("html", "--html", "html_path", default=None, metavar="PATH"),
+        shared("junit", "--junit", "junit_path", default=None, metavar="PATH"),
+        shared("strict", "--strict", is_flag=True),
+        quiet_option(),
     ]
     for o in reversed(opts):
         f = o(f)

@@ -7,7 +7,8 @@ import os
 import click
 
 from ..errors import InputError
-from .common import EXIT_FAIL, EXIT_OK, Progress, out, run_argv, text, write_outputs
+from .common import (EXIT_FAIL, EXIT_OK, Progress, out, quiet_option, run_argv, shared, text, workers_option,
+                     write_outputs)
 
 
 DEMO_STREAMS = (
@@ -17,12 +18,12 @@ DEMO_STREAMS = (
 
 
 @click.command()
-@click.option("--budget", default="8MiB", metavar="SIZE", show_default=True, help="Bytes each check may see.")
+@shared("budget", "--budget", default="8MiB", metavar="SIZE", show_default=True, tail="Here for each demo stream.")
 @click.option("--out", "out_dir", default=None, metavar="DIR",
               help="Folder for the reports (default: a new folder ./rngassay-demo, -2, -3, ...).")
 @click.option("--replace", is_flag=True, help="Write over demo reports already in --out (else refused).")
-@click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
-@click.option("--quiet", "-q", is_flag=True, help="No progress on stderr.")
+@workers_option("Default: all cores.")
+@quiet_option()
 def demo(budget: str, out_dir: str | None, workers: int | None, quiet: bool, replace: bool) -> None:
     """Run the built-in example and write its reports.
 
@@ -83,7 +84,8 @@ def _demo_folder(out_dir: str | None, replace: bool) -> str:
 @click.argument("base", metavar="BASE.json")
 @click.argument("new", metavar="NEW.json")
 @click.option("--all", "show_all", is_flag=True, help="Also list checks that did not change.")
-def diff(base: str, new: str, show_all: bool) -> None:
+@quiet_option("diff shows no progress: accepted so that every command takes -q.")
+def diff(base: str, new: str, show_all: bool, quiet: bool) -> None:
     """Compare two JSON reports check by check; exit 1 when NEW is worse, else 0."""
     from ..report.diff import diff_reports, render_diff_text
     from ..report.files import read_report_json

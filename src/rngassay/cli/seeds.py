@@ -9,8 +9,10 @@ import click
 from ..seeds.defaults import (
     DEFAULT_AVALANCHE_SEEDS,
     DEFAULT_AVALANCHE_SEEDS_COMMAND,
+    DEFAULT_BYTES_PER_SEED,
     DEFAULT_EARLY_BYTES,
     DEFAULT_LAGS,
+    MAX_BYTES_PER_SEED,
     ROW_KEYS,
     SEED_SETS,
 )
@@ -26,16 +28,25 @@ def _ints(text: str, option: str) -> tuple[int, ...]:
     return out
 
 
-MAX_BYTES_PER_SEED = 16 << 20  # a block of 32 seeds' streams stays near 0.5 GiB per task
+DEFAULT_BYTES_PER_SEED_TEXT = "64KiB"
 MAX_LAGS = 1024  # cross-correlation lags; the cost grows with lags times values per seed
 
 
-def _bounded_sizes(bytes_per_seed: str, lags: int) -> int:
-    """Bound --bytes-per-seed and --lags before anything is allocated; return the byte count."""
+def _bounded_sizes(bytes_per_seed: str | None, lags: int, budget: str | None) -> int | None:
+    """Bound --bytes-per-seed and --lags before anything is allocated; return the byte count (None: from --budget,
+    whose share per seed the sweep bounds)."""
     from ..errors import InputError
     from ..sizes import format_size, parse_size
 
-    b = parse_size(bytes_per_seed, "--bytes-per-seed")
+    if budget is not None:
+        if bytes_per_seed is not None:
+            raise InputError("--budget and --bytes-per-seed given", "",
+                             "give one: --budget (the total read, shared by the seeds) or --bytes-per-seed")
+        parse_size(budget, "--budget")
+        if lags > MAX_LAGS:
+            raise InputError(f"--lags {lags} is too large: at most {MAX_LAGS}", "", "e.g. --lags 8")
+        return None
+    b = parse_size(bytes_per_seed or DEFAULT_BYTES_PER_SEED_TEXT, "--bytes-per-seed")
     if b > MAX_BYTES_PER_SEED:
         raise InputError(f"--bytes-per-seed {bytes_per_seed} is above the maximum of {format_size(MAX_BYTES_PER_SEED)}",
                          "", "sweep more seeds rather than longer streams, e.g. --bytes-per-seed 1MiB")
@@ -49,26 +60,26 @@ def register_cli(group: click.Group) -> click.Command:
     """Add the ``seeds`` command to ``group`` (once) and return it."""
     if "seeds" in group.commands:
         return group.commands["seeds"]
-    from .common import Progress, check_outputs, check_workers, finish, input_paths, report_options, run_argv, split
+    from .common import (EXIT_OK, Progress, alpha_option, budget_option, check_outputs, check_workers, cluster_option,
+                         finish, input_paths, out, plan_only_option, report_options, run_argv, selection_options,
+                         split, stream_source_options, workers_option)
 
     sets = "; ".join(f"{k}: {v}" for k, v in SEED_SETS.items())
 
     @group.command("seeds")
-    @click.option("--python", "python_spec", default=None, metavar="FILE.py:FACTORY",
-                  help="FACTORY(seed) returns a numpy BitGenerator, Generator or draw(n_bytes) callable "
-                       "(also package.module:FACTORY).")
-    @click.option("--command", default=None, metavar="CMD",
-                  help="A command run once per seed with {seed} replaced, e.g. \"mygen --seed {seed}\".")
-    @click.option("--shell", is_flag=True, help="Run --command through the shell.")
-    @click.option("--gen", default=None, metavar="NAME", help="A built-in reference generator (see `rngassay catalog`).")
+    @stream_source_options(seed=False, tails={
+        "command": "Run once per seed with {seed} replaced, e.g. \"mygen --seed {seed}\".",
+        "python": "Called once per seed: NAME(seed).",
+        "gen": "Seeded with each seed in turn.",
+    })
     @click.option("--seeds", "seeds_spec", default=None, metavar="SPEC",
                   help="Seeds: an inclusive range 0..999, a list 1,5,9 (items may be ranges) or @FILE (one per line).")
     @click.option("--seed-set", default=None, metavar="NAME", help=f"A ready-made adversarial set. {sets}.")
-    @click.option("--bytes-per-seed", default="64KiB", show_default=True, metavar="SIZE",
-                  help="Bytes of each seed's stream (a multiple of 8, at least 64).")
-    @click.option("--checks", "checks", multiple=True, metavar="SEL",
-                  help=f"Run only these seed checks: {', '.join(ROW_KEYS)}, or full identifiers.")
-    @click.option("--skip", "skip", multiple=True, metavar="SEL", help="Leave out these seed checks (same selectors).")
+    @click.option("--bytes-per-seed", default=None, metavar="SIZE",
+                  help="Bytes of each seed's stream (a multiple of 8, at least 64; default 64KiB; not with --budget).")
+    @budget_option("Here: every seed's stream and the avalanche's; each seed gets an equal share (instead of "
+                   "--bytes-per-seed).")
+    @selection_options(f"Here the seed checks: {', '.join(ROW_KEYS)}.")
     @click.option("--per-seed-checks", "per_seed", multiple=True, metavar="SEL",
                   help="Battery checks to run on every seed's stream (key, family or identifier; "
                        "default: a lean subset of nine).")
@@ -85,15 +96,14 @@ def register_cli(group: click.Group) -> click.Command:
                   help="Seed width: the avalanche flips bits 0..N-1; every seed must be below 2**N.")
     @click.option("--early-bytes", default=DEFAULT_EARLY_BYTES, show_default=True, type=int, metavar="P",
                   help="Output byte positions 0..P-1 checked across seeds.")
-    @click.option("--alpha", default=1e-3, type=float, show_default=True,
-                  help="Family-wise false-alarm rate of a run (Holm over the seed checks).")
-    @click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: all cores).")
-    @click.option("--cluster", default=None, metavar="ADDRESS",
-                  help="Run on a Dask cluster, e.g. tcp://host:8786 (pip install 'rngassay[cluster]').")
+    @alpha_option("Here over the seed checks.")
+    @workers_option("Default: all cores.")
+    @cluster_option
+    @plan_only_option("Here the seed checks, the seeds and the bytes of each stream; no stream is made.")
     @report_options
-    def seeds_cmd(python_spec, command, shell, gen, seeds_spec, seed_set, bytes_per_seed, checks, skip, per_seed,
-                  lags, interleave, merge_budget, avalanche_seeds, seed_bits, early_bytes, alpha, workers, cluster,
-                  json_path, html_path, junit_path, strict, quiet) -> None:
+    def seeds_cmd(command, shell, python_spec, gen, seeds_spec, seed_set, bytes_per_seed, budget, checks, skip,
+                  per_seed, lags, interleave, merge_budget, avalanche_seeds, seed_bits, early_bytes, alpha, workers,
+                  cluster, plan_only, json_path, html_path, junit_path, strict, quiet) -> None:
         """Sweep seeds: one stream per seed, checks of how the streams relate; exit 0 pass, 1 fail, 2 bad input.
 
         \b
@@ -112,7 +122,7 @@ def register_cli(group: click.Group) -> click.Command:
 
         defer_signals()  # a stop signal while starting up is kept for the run, which then ends in a report
         check_workers(workers, cluster)
-        bytes_per_seed = _bounded_sizes(bytes_per_seed, lags)
+        nbytes = _bounded_sizes(bytes_per_seed, lags, budget)
         if avalanche_seeds is not None and avalanche_seeds < 0:
             raise InputError(f"--avalanche-seeds must be >= 0, got {avalanche_seeds}", "", "e.g. 128")
         seeds_file = (seeds_spec[1:],) if seeds_spec and seeds_spec.startswith("@") else ()
@@ -122,7 +132,8 @@ def register_cli(group: click.Group) -> click.Command:
         try:
             report = sweep_seeds(
                 seeds_spec, seed_set=seed_set, python=python_spec, command=command, shell=shell, gen=gen,
-                bytes_per_seed=bytes_per_seed, checks=split(checks), skip=split(skip),
+                bytes_per_seed=nbytes or DEFAULT_BYTES_PER_SEED, budget=budget, plan_only=plan_only,
+                checks=split(checks), skip=split(skip),
                 per_seed_checks=split(per_seed), lags=lags, interleave=_ints(interleave, "--interleave"),
                 merge_budget=merge_budget, avalanche_seeds=avalanche_seeds, seed_bits=seed_bits,
                 early_bytes=early_bytes, alpha=alpha, workers=workers or (os.cpu_count() or 1) if cluster is None
@@ -130,6 +141,9 @@ def register_cli(group: click.Group) -> click.Command:
             )
         finally:
             progress.done()
+        if plan_only:
+            out(report.describe())
+            raise click.exceptions.Exit(EXIT_OK)
         finish(report, outputs, strict)
 
     return seeds_cmd

@@ -6,28 +6,24 @@ import os
 
 import click
 
-from .common import (EXIT_OK, Progress, announce_seeds, check_outputs, check_source_given, check_workers, finish,
-                     out, report_options, run_argv, source_options, split, text, write_outputs)
+from .common import (EXIT_OK, Progress, alpha_option, announce_seeds, budget_option, check_outputs, check_source_given,
+                     check_workers, cluster_option, finish, out, plan_only_option, report_options, run_argv,
+                     selection_options, source_options, split, text, workers_option, write_outputs)
 
 
 @click.command("test")
 @source_options
-@click.option("--budget", default=None, metavar="SIZE",
-              help="Bytes each check may see (default 64 MiB; a file shorter than that is read whole).")
-@click.option("--checks", "checks", multiple=True, metavar="SEL",
-              help="Run only these checks: key, family or identifier; comma-separated or repeated.")
-@click.option("--skip", "skip", multiple=True, metavar="SEL", help="Leave out these checks (same selectors).")
-@click.option("--alpha", default=1e-3, type=float, show_default=True,
-              help="Family-wise false-alarm rate of a run (Holm).")
-@click.option("--workers", default=None, type=int, metavar="N", help="Worker processes (default: one per core; a run of at most 8 MiB in this process).")
+@budget_option("Default 64 MiB; a file shorter than that is read whole.")
+@selection_options()
+@alpha_option()
+@workers_option("Default: one per core; a run of at most 8 MiB in this process.")
 @click.option("--no-retest", is_flag=True, help="Do not retest borderline checks on fresh data.")
 @click.option("--grow-to", "grow_to", default=None, metavar="SIZE",
               help="Grow to a decision: run at the budget, then on fresh data at 2x, 4x, ... up to SIZE, stopping at "
                    "the first stage where a check fails (family-wise alpha over all stages by alpha spending; no "
                    "retest).")
-@click.option("--plan-only", is_flag=True, help="Show the plan (checks, parameters, bytes, replicates) and stop.")
-@click.option("--cluster", default=None, metavar="ADDRESS",
-              help="Run the checks on a Dask cluster, e.g. tcp://host:8786 (pip install 'rngassay[cluster]').")
+@plan_only_option("The plan also shows the segments and replicates.")
+@cluster_option
 @report_options
 def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, budget, checks, skip, alpha,
              workers, no_retest, grow_to, plan_only, cluster, json_path, html_path, junit_path, strict, quiet) -> None:

@@ -201,6 +201,7 @@ def read_variates(
     command: str | None = None,
     shell: bool = False,
     limit: int | None = None,
+    exact: bool = False,
 ) -> Variates:
     """Read a supplier's values from a file path, ``"-"`` (standard input), a :class:`RawSource` or ``command``.
 
@@ -209,7 +210,8 @@ def read_variates(
     ``labels`` (tokens matched exactly against ``labels``; text only).  NaN and infinities are
     rejected with file:line (text) or byte offset (binary); ``validate(values_chunk)`` may reject a
     value by returning ``(index, what, hint)``.  At most ``limit`` values (default and ceiling
-    :data:`MAX_VALUES`) are read.
+    :data:`MAX_VALUES`) are read. ``exact``: read no more than ``limit`` values (a budget: what is read is
+    exactly what is examined), instead of one more to learn whether the source had more.
     """
     if fmt not in FORMATS:
         raise InputError(f"unknown format {fmt!r} for fit", "", "use text, <f8 or <f4")
@@ -227,7 +229,8 @@ def read_variates(
         decoder = _BinaryDecoder(raw.where, fmt, validate)
     with _VariateStream(raw, fmt, decoder) as stream:
         try:
-            values = _read_upto(stream, decoder, cap + 1)  # one value more than the cap: did the source have more?
+            # one value more than the cap: did the source have more? (not for an exact budget)
+            values = _read_upto(stream, decoder, cap if exact else cap + 1)
         except InputError as e:
             if stream.values_read == 0 and e.what.startswith("empty stream"):  # the stream's words for nothing read
                 raise InputError("no values in the data", raw.where, "check the source and --format") from None

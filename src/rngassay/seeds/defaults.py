@@ -8,6 +8,7 @@ DEFAULT_EARLY_BYTES = 32
 DEFAULT_AVALANCHE_SEEDS = 128
 DEFAULT_AVALANCHE_SEEDS_COMMAND = 16  # every flipped seed is one more process start
 AVALANCHE_BYTES = 16  # first 128 output bits
+MAX_BYTES_PER_SEED = 16 << 20  # a block of 32 seeds' streams stays near 0.5 GiB per task
 #: Below this stream length the default per-seed checks are left out: their asymptotic p-values become
 #: coarse (e.g. the overlapping serial test with 4 cells on 128 uniforms reports a left tail of 1e-308
 #: when the counts happen to be perfectly even, about once in 2000 sound streams).

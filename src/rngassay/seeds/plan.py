@@ -81,6 +81,47 @@ class SweepPlan:
     def nblocks(self) -> int:
         return -(-self.S // self.o.block)
 
+    def avalanche_bytes(self) -> int:
+        """Bytes the avalanche reads: the first output bytes of every seed of its pairs (base and flipped)."""
+        from .defaults import AVALANCHE_BYTES
+
+        if self.edges is None:
+            return 0
+        a, b = self.edges[0], self.edges[1]
+        return int(np.unique(np.concatenate([a, b])).size) * AVALANCHE_BYTES
+
+    def total_bytes(self) -> int:
+        """Everything the sweep reads from the seeded streams: every seed's stream, and the avalanche's."""
+        return self.S * self.B + self.avalanche_bytes()
+
+    def describe(self) -> str:
+        """The sweep's plan as text (``rngassay seeds --plan-only``): the rows, their parameters, the total read."""
+        from ..sizes import format_size
+
+        rows = [f"per-seed {pc.id}  (on each of the {self.S} streams; second level across seeds)" for pc in self.per_seed]
+        rows += [f"interleave k={k}  ({g} merged stream{'s' if g != 1 else ''} of {k * self.B} bytes, then the battery)"
+                 for k, g in self.groups.items()]
+        if self.xor_groups:
+            rows.append(f"xor pairs  ({self.xor_groups} XOR-ed pair{'s' if self.xor_groups != 1 else ''}, "
+                        f"{self.xor_groups * self.B} bytes, then the battery)")
+        if self.run_x:
+            rows.append(f"cross-correlation lags={self.o.lags}  (adjacent seeds' streams)")
+        if self.run_ov:
+            rows.append("duplicates and overlaps  (identical or shifted streams across seeds)")
+        if self.edges is not None:
+            rows.append(f"avalanche seed-bits={self.o.seed_bits}  ({len(self.edges[0])} flipped-seed pairs from "
+                        f"{self.edges[4]} base seeds)")
+        if self.run_early:
+            rows.append(f"early bytes positions={self.P}")
+        total, av = self.total_bytes(), self.avalanche_bytes()
+        lines = [f"seed sweep plan: {len(rows)} checks on {self.S} seeds, {self.B} bytes of each seed's stream",
+                 f"reads {total} bytes in all ({format_size(total)}): {self.S} x {self.B} bytes of the seeds' streams"
+                 + (f" and {av} bytes for the avalanche" if av else "")
+                 + "; merged streams are made from what was read", ""]
+        lines += [f"  {r}" for r in rows]
+        lines += [f"note: {n}" for n in self.notes]
+        return "\n".join(lines)
+
 
 @dataclass
 class SweepTasks:

@@ -516,12 +516,17 @@ def sweep_seeds(
     cluster: str | None = None,
     client: Any = None,
     progress: Callable[[str], None] | None = None,
-) -> Report:
+    budget: str | int | None = None,
+    plan_only: bool = False,
+) -> Report | SweepPlan:
     """The seed sweep from CLI-style arguments (what ``rngassay seeds`` calls).
 
     ``seeds``: ``"0..999"``, ``"1,5,9"``, ``"@FILE"`` or a sequence of ints; or ``seed_set`` (``"consecutive:N"``,
     ``"powers-of-two"``, ``"low-weight"``, ``"all-ones"``). The factory: ``python="FILE.py:NAME"``,
     ``command="prog --seed {seed}"``, ``gen="NAME"`` or ``factory=callable(seed)``. Sizes take IEC suffixes.
+    ``budget``: the total read (every seed's stream and the avalanche's), instead of ``bytes_per_seed``: each
+    seed gets an equal share, rounded down to a multiple of 8 bytes. ``plan_only``: return the
+    :class:`~rngassay.seeds.plan.SweepPlan` (its ``describe()`` and ``total_bytes()``) without making a stream.
     """
     from ..sizes import parse_size
     from .seedsets import resolve_seeds
@@ -549,5 +554,30 @@ def sweep_seeds(
         interleave=tuple(interleave), merge_budget=parse_size(merge_budget, "--merge-budget"),
         avalanche_seeds=avalanche_seeds, seed_bits=seed_bits, early_bytes=early_bytes, checks=checks, skip=skip,
     )
+    if budget is not None:
+        opts.bytes_per_seed = _bytes_for_budget(arr, f, opts, alpha, parse_size(budget, "--budget"), str(budget))
+    if plan_only:
+        return plan_sweep(arr, f, opts, alpha)
     return run_sweep(arr, f, options=opts, alpha=alpha, workers=workers, cluster=cluster, client=client,
                      progress=progress, seed_spec=spec)
+
+
+def _bytes_for_budget(seeds: np.ndarray, f: SeedFactory, o: SweepOptions, alpha: float, total: int, shown: str) -> int:
+    """Bytes per seed for a total ``--budget``: what the avalanche reads (it does not depend on the stream length)
+    comes off first, the rest is shared equally, rounded down to a multiple of 8."""
+    from .defaults import MAX_BYTES_PER_SEED
+
+    trial = plan_sweep(seeds, f, dataclasses.replace(o, bytes_per_seed=MAX_BYTES_PER_SEED), alpha)
+    av = trial.avalanche_bytes()
+    per = max(0, total - av) // trial.S // 8 * 8
+    if per < 64:
+        raise InputError(f"--budget {shown} is too small for {trial.S} seeds: each seed's stream needs at least 64 "
+                         "bytes" + (f", and the avalanche reads {av} bytes" if av else ""), "",
+                         f"give at least --budget {64 * trial.S + av}, or fewer seeds")
+    if per > MAX_BYTES_PER_SEED:
+        raise InputError(f"--budget {shown} gives {per} bytes per seed, above the maximum of {MAX_BYTES_PER_SEED}",
+                         "", "sweep more seeds rather than longer streams, or give a smaller --budget")
+    if o.lags >= per // 8:
+        raise InputError(f"--lags {o.lags} is too large for --budget {shown}: below the {per // 8} values per seed",
+                         "", "give a larger --budget or a smaller --lags")
+    return per
