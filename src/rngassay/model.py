@@ -102,6 +102,8 @@ class Report:
     schema: str = SCHEMA
     cautions: list[str] = field(default_factory=lambda: list(CAUTIONS))
     audit: dict[str, Any] = field(default_factory=dict)  # the audit trail (see begin_audit / close_audit)
+    # fit only: the values against the declared law, for the report's figures (checks.transform.picture)
+    fit_picture: dict[str, Any] = field(default_factory=dict)
     # not part of the JSON: the bad-input error (what, where, hint) that stopped the run, when one did
     input_error: Any = field(default=None, repr=False, compare=False)
 
@@ -148,6 +150,8 @@ class Report:
             "cautions": self.cautions,
             "audit": self.audit,
         }
+        if self.fit_picture:  # fit reports only (a key added to schema 1)
+            d["fit_picture"] = self.fit_picture
         return d
 
     def to_json(self) -> str:
