@@ -312,3 +312,12 @@ def test_fit_reports_carry_the_two_pictures(dist, make):
         assert doc[i: i + 100].count("data:image/png;base64,") == 1
     assert "fit_picture" not in render_html(_report())  # test reports have no fit pictures
     assert not Report.from_dict(json.loads(_report().to_json())).fit_picture
+
+
+def test_a_fit_of_text_values_counts_bytes_in_the_checks_table():
+    r = _report()
+    r.command = "fit"
+    r.source.update(format="text", values=1000)
+    doc = render_html(r)
+    table = doc[doc.index('<section id="checks">'): doc.index('<section id="plan">')]
+    assert "bytes in all" in table and "values in all" not in table

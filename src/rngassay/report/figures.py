@@ -371,7 +371,7 @@ def heatmap_figure(report: Report) -> Figure:
     for t, (c, _) in zip(ax.get_yticklabels(), rows):
         if regular_side(c)[0] < 0:
             t.set_color(REGULAR)
-    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    ax.xaxis.set_major_locator(FixedLocator(range(width)) if width <= 12 else MaxNLocator(integer=True))
     ax.set_xlabel("replicate (rounds in order)", fontsize=8)
     ax.tick_params(axis="x", labelsize=7)
     cbar = fig.colorbar(im, ax=ax, fraction=0.04, pad=0.02)

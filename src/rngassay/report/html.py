@@ -215,7 +215,8 @@ def _check_table(r: Report) -> list[str]:
     from .figures import regular_side
 
     show_rounds = any(len(c.rounds) > 1 for c in r.checks)
-    text = str(r.source.get("format", "")).startswith("text")  # text: amounts are values, not bytes
+    # text: amounts are values, not bytes (a fit counts the bytes of its file and of the transformed values)
+    text = str(r.source.get("format", "")).startswith("text") and r.command != "fit"
     unit = "values in all" if text else "bytes in all"
     head = ["check", "family", "parameters", "p-value", "Holm-adjusted p", "grade", unit, "replicates"]
     if show_rounds:
