@@ -103,6 +103,8 @@ class Report:
     cautions: list[str] = field(default_factory=lambda: list(CAUTIONS))
     audit: dict[str, Any] = field(default_factory=dict)  # the audit trail (see begin_audit / close_audit)
     growth: dict[str, Any] | None = None  # the stages of a growth run (battery.growth), else None
+    # fit only: the values against the declared law, for the report's figures (checks.transform.picture)
+    fit_picture: dict[str, Any] = field(default_factory=dict)
     # not part of the JSON: the bad-input error (what, where, hint) that stopped the run, when one did
     input_error: Any = field(default=None, repr=False, compare=False)
 
@@ -151,6 +153,8 @@ class Report:
         }
         if self.growth is not None:  # a growth run's stages (only then: other reports keep their keys)
             d["growth"] = self.growth
+        if self.fit_picture:  # fit reports only (a key added to schema 1)
+            d["fit_picture"] = self.fit_picture
         return d
 
     def to_json(self) -> str:

@@ -71,7 +71,8 @@ def test_every_renderer_shows_the_trail_of_a_command_line_run(run_cli, tmp_path,
     assert int(p["audit.left_out"]) == len(a["left_out"]) and f"audit.left_out.{len(a['left_out'])}" in p
     # HTML: a section with human labels, not Python literals
     page = h.read_text()
-    section = page[page.index("<h2>Audit trail</h2>"):page.index("<h2>Cautions</h2>")]
+    start = page.index("<h2>Audit trail</h2>")
+    section = page[start:page.index("</section>", start)]
     for label in ("Command line", "Started (UTC)", "Ended (UTC)", "Versions", "Seed", "Selection",
                   "Checks left out"):
         assert label in section

@@ -60,7 +60,7 @@ def report() -> Report:
 def fast_figures(monkeypatch):
     """For tests about the page text only: skip drawing (the real figures are tested below)."""
     tiny = PNG_MAGIC + b"\x00\x00\x00\x0dIHDR" + struct.pack(">II", 1, 1)
-    monkeypatch.setattr(figures, "all_figures", lambda r: dict.fromkeys(("histogram", "qq", "bars", "heatmap"), tiny))
+    monkeypatch.setattr(figures, "all_figures", lambda r: dict.fromkeys(("summary", "heatmap", "histogram", "qq"), tiny))
 
 
 class _Tags(HTMLParser):
@@ -263,10 +263,10 @@ def test_many_checks_stay_bounded():
     checks = [_check(f"linear complexity M=500 lane={i}", float(rng.random()), "pass", _rounds((30, 0.5), seed=i),
                      family="linear complexity") for i in range(200)]
     r = Report(command="t", source={}, budget_bytes=1, alpha=0.01, verdict="pass", combined_p=0.5, checks=checks)
-    for name in ("bars", "heatmap"):
-        png = getattr(figures, {"bars": "check_bars", "heatmap": "replicate_heatmap"}[name])(r)
-        w, h = _png_size(png)
-        assert h <= 100 * (2.0 + 0.17 * figures.MAX_ROWS) + 1, name
+    w, h = _png_size(figures.evidence_by_family(r))
+    assert h <= figures.DPI * 3.7 + 1  # the summary figure does not grow with the number of checks
+    w, h = _png_size(figures.replicate_heatmap(r))
+    assert h <= figures.DPI * (2.3 + 0.15 * figures.MAX_ROWS) + 1
 
 
 def test_control_characters_never_reach_the_html_raw():

@@ -41,6 +41,7 @@ from ..checks.transform.conformance import (FIT_TAIL_LEVELS, FitCheck, anderson_
                                             outcome_frequency_check, randomised_pit, serial_check,
                                             tail_count_check, tail_log_areas)
 from ..checks.transform.declared import Declaration, categories_for, discrete_validator
+from ..checks.transform.picture import continuous_picture, discrete_picture
 from ..checks.registry import matches
 from ..errors import InputError
 from ..intake.memory import stream_from_array
@@ -106,6 +107,7 @@ def fit_values(
     if var.truncated:
         notes.append(f"only the first {n} values were used (the source had more)")
     fit_checks: list[FitCheck] = []
+    picture: dict[str, Any] = {}  # what the report draws of the values against the declared law
     settings: dict[str, Any] = {"declaration": decl.spec, "declaration_kind": decl.kind, "values": n}
     if progress:
         progress("fit checks on the values")
@@ -122,7 +124,7 @@ def fit_values(
 
     interrupted = False
     try:
-        u = _fit_checks(decl, x, n, pit_seed, attempt, fit_checks, settings, notes)
+        u = _fit_checks(decl, x, n, pit_seed, attempt, fit_checks, settings, notes, picture)
     except KeyboardInterrupt:  # a stop signal (Ctrl-C, SIGTERM, SIGHUP): report what finished
         interrupted, u = True, None
         notes.append(f"incomplete run: interrupted during the fit checks; {len(fit_checks)} finished, the PIT "
@@ -156,13 +158,14 @@ def fit_values(
     return graded_report(
         "fit", rows, alpha=alpha, source=var.source, budget_bytes=nbytes, incomplete=incomplete,
         elapsed_s=time.perf_counter() - t0, plan=plan_items, settings=settings, notes=notes,
-        cautions=list(FIT_CAUTIONS),
+        cautions=list(FIT_CAUTIONS), fit_picture=picture,
     )
 
 
-def _fit_checks(decl, x, n, pit_seed, attempt, fit_checks, settings, notes) -> np.ndarray:
+def _fit_checks(decl, x, n, pit_seed, attempt, fit_checks, settings, notes, picture) -> np.ndarray:
     """The fit-specific checks (appended to ``fit_checks``) and the PIT values for the battery."""
     if decl.kind == "continuous":
+        picture.update(continuous_picture(decl.frozen, x))
         lf, ls = tail_log_areas(decl.frozen, x)
         attempt("anderson-darling", lambda: anderson_darling_check(lf, ls))
         for q in FIT_TAIL_LEVELS:
@@ -187,6 +190,7 @@ def _fit_checks(decl, x, n, pit_seed, attempt, fit_checks, settings, notes) -> n
         cats = categories_for(decl)
         idx = cats.index(x) if decl.kind == "discrete" else np.asarray(x, dtype=np.int64)
         counts = np.bincount(idx, minlength=len(cats.labels))
+        picture.update(discrete_picture(cats.labels, counts, cats.probs))
         attempt("outcome frequencies", lambda: outcome_frequency_check(counts, cats.probs))
         fit_checks.append(outcome_deviation_check(counts, cats.probs, cats.labels))
         for d in (2, 3):

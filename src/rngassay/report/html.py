@@ -114,12 +114,25 @@ tr.err td { color: var(--fail); font-size: .92em; border-top: 0; }
          color: #fff; font-size: .9em; }
 .g-pass { background: var(--pass); } .g-borderline { background: var(--borderline); }
 .g-fail { background: var(--fail); } .g-other { background: var(--muted); }
-.figs { display: grid; grid-template-columns: repeat(auto-fit, minmax(320px, 1fr)); gap: 1rem; }
+.figs { display: grid; grid-template-columns: 1fr 1fr; gap: 1rem; }
 figure { margin: 0; padding: .6rem; background: #fff; border: 1px solid var(--line); border-radius: 6px; }
 figure.wide { grid-column: 1 / -1; }
 figure img { max-width: 100%; height: auto; display: block; margin: 0 auto; }
 figcaption { color: var(--muted); font-size: .88em; margin-top: .4rem; }
-ul.cautions li { margin-bottom: .3rem; }
+ul.cautions { margin: .6rem 0 0; padding-left: 1.2rem; color: var(--muted); font-size: .88em; }
+ul.cautions li { margin-bottom: .1rem; }
+details { margin: .2rem 0; } details > summary { cursor: pointer; color: var(--muted); padding: .3rem 0; }
+details[open] > summary { margin-bottom: .4rem; }
+ol.marks, ul.marks { columns: 2 28em; column-gap: 2rem; margin: .6rem 0 0; font-size: .92em; }
+ol.marks li, ul.marks li { break-inside: avoid; margin-bottom: .15rem; overflow-wrap: anywhere; }
+small.regular { color: #2c5d8f; } p.marks-head { margin: .6rem 0 .2rem; color: var(--muted); }
+@media (max-width: 600px) {
+  body { padding: .8rem .7rem 2rem; }
+  .banner { flex-direction: column; align-items: flex-start; gap: .3rem; }
+  dl.kv { grid-template-columns: 1fr; } dl.kv dt { margin-top: .35rem; }
+  .figs { grid-template-columns: 1fr; }
+  figure.wide { overflow-x: auto; } figure.wide img { max-width: none; width: 680px; }
+}
 table.left-out td:last-child { overflow-wrap: anywhere; } table.left-out td:first-child { width: 30%; min-width: 9em; }
 h3 { font-size: .95rem; margin: 1.2rem 0 .4rem; }
 footer { margin-top: 2.5rem; color: var(--muted); font-size: .85em; }
@@ -133,18 +146,22 @@ def _img(png: bytes, alt: str) -> str:
     return f'<img src="data:image/png;base64,{data}" alt="{_e(alt)}">'
 
 
-def _header(r: Report) -> list[str]:
+def _verdict(r: Report) -> list[str]:
+    """The title, the verdict banner (with when the report was made), the incomplete marker and the cautions."""
     src = r.source or {}
     verdict = r.verdict if r.verdict in GRADES else "other"
     counts = {g: sum(1 for c in r.checks if c.grade == g) for g in GRADES}
     tally = ", ".join(f"{counts[g]} {g}" for g in GRADES)
+    made = (r.audit or {}).get("ended_utc") or (r.audit or {}).get("started_utc")
     out = [
         f"<h1>rngassay report: {_e(src.get('name', 'unnamed source'))}</h1>",
         f'<section class="banner v-{verdict}" aria-label="verdict">',
         f'<div class="word">{_e(r.verdict)}</div>',
         '<div class="facts">',
+        f"<div>{len(r.checks)} checks: {_e(tally)}; alpha = {_e(f'{r.alpha:g}')} (family-wise, Holm)</div>",
         f"<div>combined p = <strong>{_e(format_p(r.combined_p))}</strong> <small>({_e(r.combined_method)})</small></div>",
-        f"<div>{len(r.checks)} checks: {_e(tally)}; alpha = {_e(f'{r.alpha:g}')}</div>",
+        f"<div><small>{_e(_command_label(r.command))}"
+        + (f"; report made {_e(made)} UTC" if made else "") + "</small></div>",
         "</div></section>",
     ]
     if r.incomplete:
@@ -156,28 +173,18 @@ def _header(r: Report) -> list[str]:
             + (f" ({_e(done)} of what was planned)" if done else "")
             + "; this report covers only the checks that finished, and the verdict rests on them alone.</div>"
         )
-    out.append("<h2>Run</h2>")
-    out.append('<dl class="kv">')
-    rows: list[tuple[str, str]] = [
-        ("source kind", _e(src.get("kind", ""))),
-        ("source name", f'<span class="mono">{_e(src.get("name", ""))}</span>'),
-        ("format", f'<span class="mono">{_e(src.get("format", ""))}</span>'),
-        ("bytes read", _bytes_text(src.get("bytes_read"))),
-        ("SHA-256", f'<span class="mono">{_e(src.get("sha256", ""))}</span>'),
-    ]
-    known = {"kind", "name", "format", "bytes_read", "sha256"}
-    rows += [(str(k), _e(_value(v))) for k, v in src.items() if k not in known]
-    rows += [
-        ("budget", f"{r.budget_bytes:,} values" if str(r.source.get("format", "")).startswith("text")
-         else _bytes_text(r.budget_bytes)),
-        ("alpha", _e(f"{r.alpha:g}")),
-        ("elapsed", _e(f"{r.elapsed_s:.2f} s")),
-        ("command", f'<span class="mono">{_e(r.command)}</span>'),
-    ]
-    rows += [(f"setting: {k}", _e(_value(v))) for k, v in (r.settings or {}).items()]
-    out += [f"<dt>{_e(k)}</dt><dd>{v}</dd>" for k, v in rows]
-    out.append("</dl>")
+    if r.cautions:
+        out.append('<ul class="cautions" aria-label="cautions">' + "".join(f"<li>{_e(c)}</li>" for c in r.cautions)
+                   + "</ul>")
     return out
+
+
+_COMMANDS = {"test": "stream assay (rngassay test)", "fit": "conformance to a declared law (rngassay fit)",
+             "seeds": "seed sweep (rngassay seeds)"}
+
+
+def _command_label(command: str) -> str:
+    return _COMMANDS.get(command, f"rngassay {command}")
 
 
 def _bytes_text(n: Any) -> str:
@@ -194,18 +201,34 @@ def _rounds_text(c: CheckReport) -> str:
     return " \u2192 ".join(f"{format_p(rd.p_value)} ({rd.replicates}\u00d7)" for rd in c.rounds)
 
 
+OPEN_UP_TO = 20  # the checks table starts open when it has at most this many rows
+
+
+def _p_cell(c: CheckReport, side: int) -> str:
+    mark = '<br><small class="regular">left tail</small>' if side < 0 else ""
+    return f'<td class="num">{_e(format_p(c.p_value))}{mark}</td>'
+
+
 def _check_table(r: Report) -> list[str]:
     if not r.checks:
-        return ["<h2>Checks</h2>", "<p>No checks ran.</p>"]
+        return ['<section id="checks">', "<h2>Checks</h2>", "<p>No checks ran.</p>", "</section>"]
+    from .figures import regular_side
+
     show_rounds = any(len(c.rounds) > 1 for c in r.checks)
-    text = str(r.source.get("format", "")).startswith("text")  # text: amounts are values, not bytes
-    unit = "values" if text else "bytes"
+    # text: amounts are values, not bytes (a fit counts the bytes of its file and of the transformed values)
+    text = str(r.source.get("format", "")).startswith("text") and r.command != "fit"
+    unit = "values in all" if text else "bytes in all"
     head = ["check", "family", "parameters", "p-value", "Holm-adjusted p", "grade", unit, "replicates"]
     if show_rounds:
         head.append("rounds (p, replicates)")
     num = {"p-value", "Holm-adjusted p", unit, "replicates"}
+    n = len(r.checks)
+    bad = sum(1 for c in r.checks if c.grade != "pass")
     out = [
-        "<h2>Checks, worst first</h2>",
+        '<section id="checks">',
+        "<h2>Checks</h2>",
+        f'<details class="checks"{" open" if n <= OPEN_UP_TO else ""}>',
+        f"<summary>All {n} checks, worst first ({bad} not passing); amounts are {_e(unit)} (every round)</summary>",
         "<div class=\"wide\"><table class=\"checks\"><thead><tr>"
         + "".join(f'<th class="num">{h}</th>' if h in num else f"<th>{h}</th>" for h in head)
         + "</tr></thead><tbody>",
@@ -216,7 +239,7 @@ def _check_table(r: Report) -> list[str]:
             f'<td class="mono" title="{_e(tip)}">{_e(c.id)}</td>',
             f"<td>{_e(c.family)}</td>",
             f'<td class="mono">{_e(format_params(c.params))}</td>',
-            f'<td class="num">{_e(format_p(c.p_value))}</td>',
+            _p_cell(c, regular_side(c)[0]),
             f'<td class="num">{_e(format_p(c.adjusted_p))}</td>',
             _grade_cell(c.grade),
             f'<td class="num">{_e(format_count(c.bytes))}</td>' if text else _bytes_cell(c.bytes),
@@ -227,11 +250,43 @@ def _check_table(r: Report) -> list[str]:
         out.append("<tr>" + "".join(cells) + "</tr>")
         if c.error:
             out.append(f'<tr class="err"><td colspan="{len(head)}">could not run: {_e(c.error)}</td></tr>')
-    out.append("</tbody></table></div>")
+    out += ["</tbody></table></div>", "</details>", "</section>"]
     return out
 
 
 _CAPTIONS = {
+    "summary": (
+        "Evidence per check, by family",
+        "One bar per check, grouped by family in the order the checks ran; its height is \u2212log10 of the "
+        "check's p-value. Bars up: the statistic is larger than chance allows (the usual side: more deviation "
+        "than chance). Bars down: the left tail \u2014 the statistic is smaller than chance allows: the data "
+        "are too regular, or an event comes too seldom (a p-value near 1 on the usual side). Colour is the "
+        "grade; the dashed lines are the run's alpha and the dotted lines the cut of Holm's step-down procedure across all checks, on both sides. When few checks fail, numbers "
+        "mark them as listed below the figure.",
+    ),
+    "fit_qq": (
+        "Values against the declared law: quantiles",
+        "Continuous law: each sample quantile against the declared law's quantile at the same probability, "
+        "with a pointwise 95% band; points off the line and outside the band at an end mean the tails "
+        "differ from the declared law. Discrete law: the observed cumulative proportion against the declared "
+        "distribution function, outcome by outcome (a P-P plot).",
+    ),
+    "fit_histogram": (
+        "Values against the declared law: counts",
+        "Continuous law: the values in 40 equal bins between the sample's 0.1% and 99.9% quantiles, with the "
+        "count the declared law expects in each bin (the line); counts outside the bins are in the corner. "
+        "Discrete law: each outcome's count with the count the declared law expects.",
+    ),
+    "heatmap": (
+        "Replicates by check, both tails",
+        "Rows are checks (worst first), columns their replicates over all rounds. Red: a small replicate "
+        "p-value; blue: a p-value near 1 (too regular); white: unremarkable; grey: no replicate there (the "
+        "check ran fewer replicates or rounds). A discrete check's p-values near 1 stay white (a count of "
+        "zero gives p = 1 often by chance). Failing checks marked \u25bc left tail have their evidence there (statistic too small); "
+        "where such a check tests both tails its replicate p-values are two-sided and its small ones are "
+        "drawn blue. A red column shared by many checks points at one bad segment of the stream. At most "
+        "40 checks are shown, worst first.",
+    ),
     "histogram": (
         "Histogram of replicate p-values",
         "All first-level replicate p-values in 20 bins; the dashed line is the count expected per bin if they "
@@ -241,41 +296,59 @@ _CAPTIONS = {
     "qq": (
         "Uniform Q-Q plot",
         "Sorted replicate p-values against their expected uniform positions, with a pointwise 95% band. "
-        "Points below the band at the left mean too many small p-values.",
-    ),
-    "bars": (
-        "Evidence per check",
-        "−log10 of each check's p-value, strongest evidence at the top, coloured by grade. The dashed line is "
-        "the run's alpha; the dotted line is the cut of Holm's step-down procedure at that alpha across all checks.",
-    ),
-    "heatmap": (
-        "Replicates by check",
-        "Rows are checks (worst first), columns their replicates over all rounds; darker means a smaller "
-        "p-value. A dark column shared by many checks points at one bad segment of the stream.",
+        "Points below the band at the left mean too many small p-values; above it at the right, too many "
+        "near 1.",
     ),
 }
+WIDE_FIGURES = ("summary", "heatmap")
 
 
-def _figures(r: Report) -> list[str]:
-    from . import figures  # matplotlib is imported only when figures are drawn
+def _figure_html(name: str, png: bytes) -> str:
+    title, caption = _CAPTIONS[name]
+    cls = ' class="wide"' if name in WIDE_FIGURES else ""
+    return (f'<figure id="fig-{name}"{cls}>{_img(png, title)}<figcaption><strong>{_e(title)}.</strong> '
+            f"{_e(caption)}</figcaption></figure>")
 
-    figs = figures.all_figures(r)
-    out = ["<h2>Figures</h2>", '<div class="figs">']
-    for name, png in figs.items():
-        title, caption = _CAPTIONS[name]
-        cls = ' class="wide"' if name in ("bars", "heatmap") else ""
-        out.append(f"<figure{cls}>{_img(png, title)}<figcaption><strong>{_e(title)}.</strong> {_e(caption)}</figcaption></figure>")
-    out.append("</div>")
+
+def _summary(r: Report, figs: dict[str, bytes]) -> list[str]:
+    """The summary figure and the key to its numbered checks."""
+    from .figures import MAX_NUMBERED, marked_checks, regular_side
+
+    out = ['<section id="summary">', "<h2>Evidence at a glance</h2>", _figure_html("summary", figs["summary"])]
+    marks = marked_checks(r)
+    if marks:
+        bad = sum(1 for c in r.checks if c.grade in ("fail", "borderline"))
+        numbered = bad <= MAX_NUMBERED
+        out.append(f"<p class=\"marks-head\">{'Numbered in the figure' if numbered else 'Strongest evidence'}"
+                   f" ({len(marks)} of {bad} failing or borderline):</p>")
+        out.append(f'<{"ol" if numbered else "ul"} class="marks">')
+        for c in marks:
+            side = " \u2014 left tail (statistic too small)" if regular_side(c)[0] < 0 else ""
+            out.append(f'<li><span class="mono">{_e(c.id)}</span>: p = {_e(format_p(c.p_value))}, '
+                       f'<span class="grade g-{_e(c.grade)}">{_e(c.grade)}</span>{_e(side)}</li>')
+        out.append(f'</{"ol" if numbered else "ul"}>')
+    out.append("</section>")
     return out
+
+
+def _other_figures(figs: dict[str, bytes]) -> list[str]:
+    rest = [(k, v) for k, v in figs.items() if k != "summary"]
+    return (['<section id="figures">', "<h2>Figures</h2>", '<div class="figs">']
+            + [_figure_html(k, v) for k, v in rest] + ["</div>", "</section>"])
 
 
 def _plan(r: Report) -> list[str]:
     if not r.plan:
         return []
+    text = str(r.source.get("format", "")).startswith("text") and r.command != "fit"
+    unit = "values per replicate" if text else "bytes per replicate"
     out = [
+        '<section id="plan">',
         "<h2>Plan</h2>",
+        f'<details class="plan"{" open" if len(r.plan) <= OPEN_UP_TO else ""}>',
+        f"<summary>{len(r.plan)} planned checks with their parameters; amounts are {unit}</summary>",
         "<div class=\"wide\"><table class=\"plan\"><thead><tr><th>check</th><th>family</th><th>parameters</th><th>view</th>"
-        '<th class="num">bytes</th><th class="num">replicates</th></tr></thead><tbody>',
+        f'<th class="num">{unit}</th><th class="num">replicates</th></tr></thead><tbody>',
     ]
     for item in r.plan:
         item = item if isinstance(item, dict) else {"id": item}
@@ -289,7 +362,7 @@ def _plan(r: Report) -> list[str]:
             f'<td class="num">{_e(item.get("replicates", ""))}</td>'
             "</tr>"
         )
-    out.append("</tbody></table></div>")
+    out += ["</tbody></table></div>", "</details>"]
     fixed: dict[str, str] = {}
     for item in r.plan:
         if isinstance(item, dict) and item.get("sample"):
@@ -298,7 +371,17 @@ def _plan(r: Report) -> list[str]:
         out.append("<p>Block checks read a fixed sample (at most this much, however large the budget):</p>")
         out.append('<ul class="samples">' + "".join(f"<li><b>{_e(k)}</b>: {_e(v)}</li>" for k, v in fixed.items())
                    + "</ul>")
+    out.append("</section>")
     return out
+
+
+def _run(r: Report) -> list[str]:
+    """The Run section: the source and the settings in words (see :mod:`.run_text`)."""
+    from .run_text import run_rows
+
+    mono_dd = '<dd class="mono">'
+    rows = [f"<dt>{_e(k)}</dt>{mono_dd if mono else '<dd>'}{_e(v)}</dd>" for k, v, mono in run_rows(r)]
+    return ['<section id="run">', "<h2>Run settings</h2>", '<dl class="kv run">'] + rows + ["</dl>", "</section>"]
 
 
 def _audit(r: Report) -> list[str]:
@@ -318,7 +401,8 @@ def _audit(r: Report) -> list[str]:
     done = T.completed_text(r)
     if done:
         rows.append(("Completed of planned", _e(done)))
-    out = ["<h2>Audit trail</h2>", '<dl class="kv audit">'] + [f"<dt>{k}</dt><dd>{v}</dd>" for k, v in rows] + ["</dl>"]
+    out = ['<section id="audit">', "<h2>Audit trail</h2>", '<dl class="kv audit">']
+    out += [f"<dt>{k}</dt><dd>{v}</dd>" for k, v in rows] + ["</dl>"]
     left = a.get("left_out") or []
     if left:
         out.append(f"<h3>Checks left out ({len(left)})</h3>")
@@ -328,6 +412,7 @@ def _audit(r: Report) -> list[str]:
             out.append(f"<tr><td>{_e(why)}</td><td class=\"num\">{len(checks)}</td>"
                        f"<td class=\"mono\">{_e('; '.join(checks))}</td></tr>")
         out.append("</tbody></table></div>")
+    out.append("</section>")
     return out
 
 
@@ -339,7 +424,11 @@ def _list(title: str, items: list[str], cls: str = "") -> list[str]:
 
 
 def render_html(report: Report) -> str:
-    """Render the report as one self-contained HTML page (no external resources, no scripts)."""
+    """Render the report as one self-contained HTML page (no external resources, no scripts), in this order:
+    the verdict with its cautions; the findings block (when there is one); the summary figure; the other
+    figures; the checks table (folded when long); the plan; the run settings; the audit trail; notes."""
+    from . import figures  # matplotlib is imported only when figures are drawn
+
     r = report
     name = (r.source or {}).get("name", "unnamed source")
     parts = [
@@ -350,13 +439,16 @@ def render_html(report: Report) -> str:
         f"<title>rngassay report \u2014 {_e(r.verdict)} \u2014 {_e(name)}</title>",
         f"<style>{_CSS}</style></head><body>",
     ]
-    parts += _header(r)
+    parts += _verdict(r)
+    # ---- a block right after the verdict (e.g. findings) goes here ----
+    figs = figures.all_figures(r)
+    parts += _summary(r, figs)
+    parts += _other_figures(figs)
     parts += _check_table(r)
-    parts += _figures(r)
     parts += _plan(r)
+    parts += _run(r)
     parts += _audit(r)
     parts += _list("Notes", [n for n in r.notes if not (r.audit and is_left_out_note(n))])
-    parts += _list("Cautions", list(r.cautions), "cautions")
     parts.append(
         f"<footer>rngassay {_e(r.tool_version)} \u00b7 report schema {_e(r.schema)}</footer>"
     )
