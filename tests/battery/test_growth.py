@@ -61,6 +61,12 @@ def test_growth_stops_at_the_first_failing_stage_and_names_the_size(tmp_path):
     assert rep.source["bytes_read"] == sum(gr["planned_sizes"][:k]) == rep.budget_bytes  # fresh data per stage
     assert any(n.startswith(f"monobit frequency: first failed at") for n in rep.notes)
     assert json.loads(rep.to_json())["growth"]["first_failed"] == {"monobit frequency": size}
+    from rngassay.report.html import render_html
+    from rngassay.report.terminal import render
+
+    page = render_html(rep)
+    assert "<h2>Growth to a decision</h2>" in page and f"stage {k}: " in page and "Lan and DeMets" in page
+    assert f"growth       stopped at stage {k}" in render(rep)
 
 
 def test_growth_from_the_command_line(run_cli, tmp_path):

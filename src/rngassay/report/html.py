@@ -15,6 +15,7 @@ from typing import Any
 
 from ..sizes import format_size
 from ..model import GRADES, CheckReport, Report, is_left_out_note
+from .stages import alpha_text, stage_lines
 
 P_TINY = 1e-300
 
@@ -158,7 +159,7 @@ def _verdict(r: Report) -> list[str]:
         f'<section class="banner v-{verdict}" aria-label="verdict">',
         f'<div class="word">{_e(r.verdict)}</div>',
         '<div class="facts">',
-        f"<div>{len(r.checks)} checks: {_e(tally)}; alpha = {_e(f'{r.alpha:g}')} (family-wise, Holm)</div>",
+        f"<div>{len(r.checks)} checks: {_e(tally)}; {_e(alpha_text(r))}</div>",
         f"<div>combined p = <strong>{_e(format_p(r.combined_p))}</strong> <small>({_e(r.combined_method)})</small></div>",
         f"<div><small>{_e(_command_label(r.command))}"
         + (f"; report made {_e(made)} UTC" if made else "") + "</small></div>",
@@ -440,6 +441,7 @@ def render_html(report: Report) -> str:
         f"<style>{_CSS}</style></head><body>",
     ]
     parts += _verdict(r)
+    parts += _list("Growth to a decision", stage_lines(r))  # a --grow-to run: its stages, where it stopped
     # ---- a block right after the verdict (e.g. findings) goes here ----
     figs = figures.all_figures(r)
     parts += _summary(r, figs)
