@@ -174,9 +174,7 @@ def merge_stages(gp: GrowthPlan, reports: list[Report]) -> Report:
                     if stopped else ("stopped early: the stage did not complete" if last.incomplete
                                      else f"all {len(gp.sizes)} stages passed")),
     }
-    notes = [n for n in last.notes if not n.startswith("left out")] if len(reports) > 1 else list(last.notes)
-    notes = [n for rep in reports[:-1] for n in rep.notes if n.startswith("left out") and n not in last.notes] \
-        + notes
+    notes = list(last.notes)  # what the last stage left out (a smaller stage leaves out at least as much)
     for cid, size in first_failed.items():
         notes.append(f"{cid}: first failed at {_size(size, binary)} (stage {gp.sizes.index(size) + 1})")
     return replace(last, checks=checks, alpha=gp.alpha, budget_bytes=sum(r.budget_bytes for r in reports),
