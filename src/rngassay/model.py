@@ -102,6 +102,8 @@ class Report:
     schema: str = SCHEMA
     cautions: list[str] = field(default_factory=lambda: list(CAUTIONS))
     audit: dict[str, Any] = field(default_factory=dict)  # the audit trail (see begin_audit / close_audit)
+    # findings in words (rngassay.checks.findings): kind, test, where, evidence, p_value, law, exact, sentence, stats
+    findings: list[dict[str, Any]] = field(default_factory=list)
     # not part of the JSON: the bad-input error (what, where, hint) that stopped the run, when one did
     input_error: Any = field(default=None, repr=False, compare=False)
 
@@ -147,6 +149,7 @@ class Report:
             "notes": self.notes,
             "cautions": self.cautions,
             "audit": self.audit,
+            "findings": self.findings,
         }
         return d
 

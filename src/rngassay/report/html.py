@@ -15,6 +15,7 @@ from typing import Any
 
 from ..sizes import format_size
 from ..model import GRADES, CheckReport, Report, is_left_out_note
+from .findings import findings_html
 
 P_TINY = 1e-300
 
@@ -351,6 +352,7 @@ def render_html(report: Report) -> str:
         f"<style>{_CSS}</style></head><body>",
     ]
     parts += _header(r)
+    parts.append(findings_html(r))  # what was found, in words (report/findings.py)
     parts += _check_table(r)
     parts += _figures(r)
     parts += _plan(r)
