@@ -105,6 +105,8 @@ class Report:
     growth: dict[str, Any] | None = None  # the stages of a growth run (battery.growth), else None
     # fit only: the values against the declared law, for the report's figures (checks.transform.picture)
     fit_picture: dict[str, Any] = field(default_factory=dict)
+    # findings in words (rngassay.checks.findings): kind, test, where, evidence, p_value, law, exact, sentence, stats
+    findings: list[dict[str, Any]] = field(default_factory=list)
     # not part of the JSON: the bad-input error (what, where, hint) that stopped the run, when one did
     input_error: Any = field(default=None, repr=False, compare=False)
 
@@ -150,6 +152,7 @@ class Report:
             "notes": self.notes,
             "cautions": self.cautions,
             "audit": self.audit,
+            "findings": self.findings,
         }
         if self.growth is not None:  # a growth run's stages (only then: other reports keep their keys)
             d["growth"] = self.growth

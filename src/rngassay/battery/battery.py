@@ -14,6 +14,7 @@ from . import grade as G
 from .plan import Plan
 from ..signals import defer_signals, received_signal, signal_guard, signal_name, signals_deferred
 from .run import Executor, Outcome, run_plan
+from .findings import SampleTap, collect
 
 
 def run_battery(
@@ -36,7 +37,8 @@ def run_battery(
     if executor is None and workers is not None:
         workers = max(1, min(workers, len(plan.checks)))  # no more worker processes than checks
     with signal_guard(), (executor if executor is not None else Executor(workers)) as ex:
-        outcomes, complete, reason, stop_error = run_plan(stream, plan, ex, progress=progress)
+        tap = SampleTap(stream)  # keeps the start of the first segment for the findings (battery/findings.py)
+        outcomes, complete, reason, stop_error = run_plan(tap, plan, ex, progress=progress)
         if stop_error is not None:
             if not any(r is not None for o in outcomes for r in o.results):  # nothing finished: nothing to file
                 stop_error.what += f" (no check finished: {completed_of_planned(outcomes)}; no report written)"
@@ -99,6 +101,8 @@ def run_battery(
     if not complete:
         notes.append(f"incomplete run: {reason}; {completed_of_planned(outcomes)}; "
                      + ("the verdict covers only what finished" if checks else "no check finished: no verdict"))
+    findings, note = collect(tap, plan.fmt)  # what the first segment shows, in words
+    notes += [note] if note else []
     order = {pc.id: i for i, pc in enumerate(plan.checks)}
     checks.sort(key=lambda c: order.get(c.id, 10**9))
     verdict = G.run_verdict([c.grade for c in checks]) if checks else NO_VERDICT
@@ -117,6 +121,7 @@ def run_battery(
                       borderline_factor=G.BORDERLINE_FACTOR),
         notes=notes,
         audit={"completed": completed_counts(outcomes)},
+        findings=findings,
     )
     defer_signals(prev_deferred)
     report.input_error = stop_error  # bad data mid-run: the report of what finished, and the error to show

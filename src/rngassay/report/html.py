@@ -16,6 +16,7 @@ from typing import Any
 from ..sizes import format_size
 from ..model import GRADES, CheckReport, Report, is_left_out_note
 from .stages import alpha_text, stage_lines
+from .findings import findings_html
 
 P_TINY = 1e-300
 
@@ -442,7 +443,7 @@ def render_html(report: Report) -> str:
     ]
     parts += _verdict(r)
     parts += _list("Growth to a decision", stage_lines(r))  # a --grow-to run: its stages, where it stopped
-    # ---- a block right after the verdict (e.g. findings) goes here ----
+    parts.append(findings_html(r))  # what was found, in words (report/findings.py)
     figs = figures.all_figures(r)
     parts += _summary(r, figs)
     parts += _other_figures(figs)

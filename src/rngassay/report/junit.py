@@ -16,8 +16,9 @@ The suite is named ``rngassay``; its ``<properties>`` record the source (``sourc
 ``source.bytes_read``, ``source.kind``, ``source.name``, ``source.format``) and the run (``verdict``,
 ``combined_p``, ``alpha``, ``budget_bytes``, ``incomplete``, ``tool_version``) and the audit trail
 (``audit.command``, ``audit.started_utc``, ``audit.ended_utc``, ``audit.version.*``, ``audit.seed.N``,
-``audit.selection``, ``audit.completed``, ``audit.left_out`` and ``audit.left_out.N``). Text is escaped by
-:mod:`xml.etree.ElementTree`; characters that XML 1.0 cannot carry at all are replaced by U+FFFD.
+``audit.selection``, ``audit.completed``, ``audit.left_out`` and ``audit.left_out.N``) and the findings in
+words (``findings``: how many; ``finding.N``: sentence, evidence and p-value; also in the suite's ``<system-out>``).
+Text is escaped by :mod:`xml.etree.ElementTree`; characters that XML 1.0 cannot carry at all are replaced by U+FFFD.
 """
 
 from __future__ import annotations
@@ -27,6 +28,7 @@ import xml.etree.ElementTree as ET
 from typing import Any
 
 from . import trail as T
+from .findings import findings_properties, findings_text
 from .html import format_p, format_params
 from ..model import CheckReport, Report
 
@@ -118,6 +120,7 @@ def render_junit(report: Report) -> str:
         ("tool_version", r.tool_version),
     ]
     values += _audit_properties(r)
+    values += findings_properties(r)
     for name, value in values:
         ET.SubElement(props, "property", {"name": name, "value": _x(value)})
     for c in r.worst_first():
@@ -145,7 +148,7 @@ def render_junit(report: Report) -> str:
     summary = [f"verdict: {r.verdict}", f"combined p = {format_p(r.combined_p)} ({r.combined_method})"]
     if r.incomplete:
         summary.append("incomplete: the run stopped early; only the checks that finished are listed.")
-    summary += list(r.notes) + list(r.cautions)
+    summary += findings_text(r) + list(r.notes) + list(r.cautions)
     ET.SubElement(suite, "system-out").text = _x("\n".join(summary))
     ET.indent(root, space="  ")
     return '<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(root, encoding="unicode") + "\n"

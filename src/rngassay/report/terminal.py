@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from ..model import Report, is_left_out_note
 from .stages import alpha_text, stage_lines
+from .findings import findings_lines
 from .trail import completed_text, left_out_lines, trail_rows
 
 _COLORS = {"fail": "\033[31;1m", "borderline": "\033[33;1m", "pass": "\033[32m"}
@@ -37,6 +38,7 @@ def render(report: Report, color: bool = False, limit: int | None = None) -> str
         )
     if limit is not None and len(rows) > limit:
         lines.append(f"  ... {len(rows) - limit} more checks, all graded as listed in the JSON/HTML report")
+    lines += findings_lines(report)  # what was found, in words (report/findings.py)
     counts = {g: sum(1 for c in report.checks if c.grade == g) for g in ("fail", "borderline", "pass")}
     lines.append("")
     done = completed_text(report) if report.incomplete else ""
