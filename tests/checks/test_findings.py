@@ -207,3 +207,21 @@ def test_die_with_a_short_period_found_in_values():
     vals = np.concatenate([rng.integers(1, 7, 50), np.tile(rng.integers(1, 7, 777), 20)])
     per = _one(F.diagnose(vals, f)[0], "period", "period")
     assert per.where["period"] == 777 and per.where["unit"] == "value" and per.where["start"] <= 50
+
+
+def test_ranged_words_are_read_as_their_range_not_as_floats():
+    # words declaring 1..2^31-2 (a multiplicative generator's outputs): the lag tests take x - LO in K = 2^31 - 2
+    # values; before, the search treated them as floats and overflowed a cast
+    import warnings
+
+    from rngassay.checks.findings import symbols
+    from rngassay.intake.formats import parse_format
+
+    fmt = parse_format("<u4", "1:2147483646")
+    x = np.array([1, 2, 2147483646, 77], dtype="<u4")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        got, K, b = symbols(x, fmt)
+    assert got.tolist() == [0, 1, 2147483645, 76] and K == 2147483646.0 and b is None
+    got, K, b = symbols(np.array([5, 6], dtype="<u4"), parse_format("<u4", "4:65539"))
+    assert got.tolist() == [1, 2] and K == 65536.0 and b == 16

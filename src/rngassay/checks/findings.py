@@ -254,10 +254,13 @@ def symbols(vals: np.ndarray, fmt: Format) -> tuple[np.ndarray, float, int | Non
     if fmt.kind == "words":
         b = 8 * fmt.itemsize
         return vals.astype(np.uint64), 2.0**b, b
-    if fmt.kind == "text-integers":
+    if fmt.kind in ("text-integers", "ranged-words"):  # values LO..HI: x - LO, K = HI - LO + 1 of them
         assert fmt.lo is not None and fmt.hi is not None
         k = fmt.hi - fmt.lo + 1
-        return (vals.astype(np.int64) - fmt.lo).astype(np.uint64), float(k), None
+        x = (vals.astype(np.uint64) - np.uint64(fmt.lo)) if fmt.kind == "ranged-words" else \
+            (vals.astype(np.int64) - fmt.lo).astype(np.uint64)
+        b = k.bit_length() - 1
+        return x, float(k), (b if k == 1 << b and fmt.kind == "ranged-words" else None)
     u = np.asarray(vals, dtype=np.float64)
     if fmt.kind == "text-floats":
         d = fmt.decimals if fmt.decimals is not None else views.decimal_grid(u)
