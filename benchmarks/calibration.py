@@ -3,7 +3,7 @@
     python benchmarks/calibration.py --runs 200 --budget 8MiB --jobs 2 > benchmarks/calibration.md
 
 Runs the whole battery on PCG64 with seeds 1..RUNS (fixed, so the experiment is reproducible), then reports:
-- the share of `fail` (and `borderline`) runs, with an exact binomial test of the fail count against alpha;
+- the share of `fail` (and `notable`) runs, with an exact binomial test of the fail count against alpha;
 - for every check, a Kolmogorov–Smirnov test of its first-level p-values (all replicates of all runs)
   against uniform — continuous checks only; discrete ones are listed with their pooled second-level p-values.
 Prints Markdown.
@@ -63,7 +63,7 @@ def main() -> None:
     results.sort(key=lambda r: r["seed"])
     n = len(results)
     fails = sum(r["verdict"] == "fail" for r in results)
-    borders = sum(r["verdict"] == "borderline" for r in results)
+    borders = sum(r["verdict"] == "notable" for r in results)
     binom = stats.binomtest(fails, n, a.alpha, alternative="greater")
     print("# Calibration of the battery on a sound generator\n")
     print(f"Command: `python benchmarks/calibration.py --runs {a.runs} --budget {a.budget} --jobs {a.jobs}`  ")
@@ -71,7 +71,7 @@ def main() -> None:
     print(f"Wall time: {time.time() - t0:.0f} s; mean run {np.mean([r['elapsed'] for r in results]):.1f} s.\n")
     print("## Run verdicts\n")
     print("| verdict | runs | share |\n|---|---|---|")
-    for v, k in (("fail", fails), ("borderline", borders), ("pass", n - fails - borders)):
+    for v, k in (("fail", fails), ("notable", borders), ("pass", n - fails - borders)):
         print(f"| {v} | {k} | {k / n:.4f} |")
     for r in results:
         if r["verdict"] != "pass":

@@ -46,7 +46,6 @@ def assay(
     skip: list[str] | None = None,
     alpha: float = DEFAULT_ALPHA,
     workers: int | str | None = 1,
-    retest: bool = True,
     progress: Callable[[str], None] | None = None,
     plan_only: bool = False,
     cluster: str | None = None,
@@ -71,7 +70,7 @@ def assay(
 
     ``grow_to`` (a size): growth to a decision (:mod:`rngassay.battery.growth`): the battery at ``budget``, then
     on fresh data at 2x, 4x, ... up to ``grow_to``, stopping at the first stage where a check fails; the
-    family-wise error over all stages stays at ``alpha`` (alpha spending); no borderline retest. With
+    family-wise error over all stages stays at ``alpha`` (alpha spending). With
     ``plan_only`` the :class:`~rngassay.battery.growth.GrowthPlan` is returned.
 
     The report's audit trail records ``argv`` (the command line passes it) or else this call and its options.
@@ -84,7 +83,7 @@ def assay(
     start = begin_audit(argv, "rngassay.assay", None if argv is not None else {
         "source": source, "budget": budget, "fmt": fmt, "value_range": value_range, "command": command,
         "shell": shell or None, "python": python, "gen": gen, "seed": seed, "checks": checks, "skip": skip,
-        "alpha": alpha, "workers": workers, "retest": retest, "cluster": cluster, "grow_to": grow_to})
+        "alpha": alpha, "workers": workers, "cluster": cluster, "grow_to": grow_to})
     if not (0 < alpha < 1):
         raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
     executor = None
@@ -121,7 +120,7 @@ def assay(
             plan = make_plan(stream.fmt, budget_bytes, checks=checks, skip=skip)
             report = stopped_report(stream, plan, f"interrupted by {signal_name(getattr(e, 'signum', 2))} while "
                                     "reading the source", alpha=alpha, t0=t0,
-                                    settings={"workers_used": workers, "retest": retest})
+                                    settings={"workers_used": workers})
             return _close(report, start, raw, plan, checks, skip)
         if growth is not None:
             return _grow(stream, f, growth, alpha=alpha, checks=checks, skip=skip, plan_only=plan_only,
@@ -131,13 +130,13 @@ def assay(
         if plan_only:
             return plan
         workers = auto_workers(plan, workers)
-        settings = {"workers_used": workers, "retest": retest}
+        settings = {"workers_used": workers}
         if executor is not None:
-            settings = {"executor": executor.describe(), "retest": retest}
+            settings = {"executor": executor.describe()}
         if grid_note:
             settings["value grid"] = grid_note
         report = run_battery(
-            stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
+            stream, plan, alpha=alpha, workers=workers, progress=progress,
             settings=settings, t0=t0, executor=executor,
         )
         _close(report, start, raw, plan, checks, skip)
@@ -156,14 +155,14 @@ def _grow(stream: Stream, f: Any, growth: tuple[int, int], *, alpha: float, chec
     if plan_only:
         return gp
     workers = auto_workers(gp.plans[-1], workers)
-    settings: dict[str, Any] = {"workers_used": workers, "retest": False}
+    settings: dict[str, Any] = {"workers_used": workers}
     if executor is not None:
-        settings = {"executor": executor.describe(), "retest": False}
+        settings = {"executor": executor.describe()}
     if grid_note:
         settings["value grid"] = grid_note
 
     def stage(st: Stream, plan: Plan, *, alpha: float, executor: Any, progress: Any) -> Report:
-        return run_battery(st, plan, alpha=alpha, workers=workers, retest=False, progress=progress,
+        return run_battery(st, plan, alpha=alpha, workers=workers, progress=progress,
                            settings=settings, t0=t0, executor=executor)
 
     report = run_growth(stream, gp, run_stage=stage, executor=executor or Executor(workers), progress=progress)
@@ -240,7 +239,6 @@ def assay_stream(
     skip: list[str] | None = None,
     alpha: float = DEFAULT_ALPHA,
     workers: int | None = 1,
-    retest: bool = True,
     progress: Callable[[str], None] | None = None,
     command: str = "test",
     strict_selectors: bool = True,
@@ -254,8 +252,8 @@ def assay_stream(
     budget_bytes = budget if budget is not None else (size if size is not None else DEFAULT_BUDGET)
     plan = make_plan(stream.fmt, budget_bytes, checks=checks, skip=skip,
                      strict_selectors=strict_selectors, windows=windows)
-    return run_battery(stream, plan, alpha=alpha, workers=workers, retest=retest, progress=progress,
-                       command=command, settings={"workers_used": workers, "retest": retest})
+    return run_battery(stream, plan, alpha=alpha, workers=workers, progress=progress,
+                       command=command, settings={"workers_used": workers})
 
 
 def fit(

@@ -16,7 +16,7 @@ from typing import Any
 from ._version import __version__
 
 SCHEMA = "rngassay-report/1"
-GRADES = ("pass", "borderline", "fail")
+GRADES = ("pass", "notable", "fail")
 NO_VERDICT = "no verdict"  # the run's verdict when no check finished (an interrupted or dying source)
 
 CAUTIONS = (
@@ -112,8 +112,8 @@ class Report:
 
     # -- outcomes ------------------------------------------------------------------------------
     def exit_code(self, strict: bool = False) -> int:
-        """0 pass (and borderline unless strict), 1 fail, 2 "no verdict" (nothing finished: never green)."""
-        if self.verdict == "fail" or (strict and self.verdict == "borderline"):
+        """0 pass (and notable unless strict), 1 fail, 2 "no verdict" (nothing finished: never green)."""
+        if self.verdict == "fail" or (strict and self.verdict == "notable"):
             return 1
         if self.verdict == NO_VERDICT:
             return 2
@@ -129,7 +129,7 @@ class Report:
         return "the run stopped early"
 
     def worst_first(self) -> list[CheckReport]:
-        order = {"fail": 0, "borderline": 1, "pass": 2}
+        order = {"fail": 0, "notable": 1, "pass": 2}
         return sorted(self.checks, key=lambda c: (order.get(c.grade, 0), c.p_value, c.id))
 
     # -- serialisation -------------------------------------------------------------------------

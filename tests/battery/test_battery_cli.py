@@ -30,7 +30,7 @@ def test_reports_written_and_exit_codes(run_cli, tmp_path, sound_file, flawed_fi
     r = run_cli("test", sound_file, "--workers", "1", "--json", j, "--html", h, "--junit", x, "-q")
     assert r.code == 0, r.err
     d = json.loads(j.read_text())
-    assert d["verdict"] in ("pass", "borderline") and d["source"]["bytes_read"] == 2 << 20
+    assert d["verdict"] in ("pass", "notable") and d["source"]["bytes_read"] == 2 << 20
     assert h.read_text().lstrip().lower().startswith("<!doctype html")
     suite = ET.parse(x).getroot()
     assert len(suite.findall(".//testcase")) == len(d["checks"])

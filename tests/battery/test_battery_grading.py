@@ -1,4 +1,4 @@
-"""Grading rules: second level, pooling, Holm, borderline retest, incomplete runs."""
+"""Grading rules: second level, pooling, Holm, the middle grade, incomplete runs."""
 
 import json
 import math
@@ -32,7 +32,7 @@ def test_holm_grades_against_hand_computation():
     assert adj == pytest.approx([0.0004, 0.012, 0.06, 0.5])
     assert grades == ["fail", "pass", "pass", "pass"]
     grades, adj = G.holm_grades([0.0009, 0.5], alpha=0.001)
-    assert grades == ["borderline", "pass"]  # 2 * 0.0009 = 0.0018 in [alpha, 10 alpha)
+    assert grades == ["notable", "pass"]  # 2 * 0.0009 = 0.0018 in [alpha, 10 alpha)
 
 
 def _outcome(key, results):
@@ -132,28 +132,17 @@ def _first_byte_check(data, **params):
     return CheckResult("firstbyte", float(data[0]), p, "test", "discrete")
 
 
-def test_borderline_is_retested_on_fresh_data(fake_registry):
+def test_notable_is_a_calibrated_middle_grade_with_no_retest(fake_registry):
     fake_registry("firstbyte", _first_byte_check, kind="discrete", need=8)
     seg = 1 << 20
-    data = bytes(seg * 4) + b"\xff" * (seg * 4)  # round one: zeros; the rest: 0xff
+    data = bytes(seg * 4) + b"\xff" * (seg * 4)  # the budget: zeros; more data after it
     rep = api.assay(ByteSource(data), budget=4 * seg, workers=1)
     c = rep.checks[0]
-    # round one: Sidak over 4 replicates of p=0.001 gives 0.004: borderline at alpha=0.001
-    assert len(c.rounds) == 2
-    assert c.rounds[0].p_value == pytest.approx(1 - 0.999**4)
-    assert c.rounds[1].p_value == pytest.approx(1 - 0.5**4)
-    assert c.grade == "pass" and rep.verdict == "pass"
-    # the retest reads only what the retested check needs (8 bytes a replicate), not a whole budget more
-    assert rep.source["bytes_read"] == 4 * seg + 4 * 8
-
-
-def test_no_retest_when_the_file_has_no_more(fake_registry):
-    fake_registry("firstbyte", _first_byte_check, kind="discrete", need=8)
-    seg = 1 << 20
-    rep = api.assay(ByteSource(bytes(seg * 4)), workers=1)
-    assert rep.checks[0].grade == "borderline" and rep.verdict == "borderline"
+    # Sidak over 4 replicates of p=0.001 gives 0.004: below 10 alpha, not below alpha at alpha=0.001
+    assert c.p_value == pytest.approx(1 - 0.999**4) and c.grade == "notable" and rep.verdict == "notable"
+    assert len(c.rounds) == 1  # no retest on the data after the budget ...
+    assert rep.source["bytes_read"] == 4 * seg  # ... and nothing read beyond the budget
     assert rep.exit_code() == 0 and rep.exit_code(strict=True) == 1
-    assert any("not retested" in n for n in rep.notes)
 
 
 def test_interrupted_run_is_marked_incomplete(fake_registry):

@@ -13,7 +13,7 @@ MiB = 1 << 20
 
 
 def test_a_generator_run_reads_its_budget_and_no_more():
-    rep = api.assay(gen="pcg64", seed=1, budget="1MiB", workers=1, retest=False)
+    rep = api.assay(gen="pcg64", seed=1, budget="1MiB", workers=1)
     assert rep.source["bytes_read"] == MiB
     assert not rep.incomplete and len(rep.checks) > 50
 
@@ -21,7 +21,7 @@ def test_a_generator_run_reads_its_budget_and_no_more():
 def test_a_finite_command_of_exactly_the_budget_is_enough(tmp_path):
     # before, every check read fresh data and this plan read about 60 times the budget: the command ran dry
     cmd = f"{sys.executable} -c \"import sys, numpy as np; sys.stdout.buffer.write(np.random.default_rng(5).bytes({MiB}))\""
-    rep = api.assay(command=cmd, shell=True, budget="1MiB", workers=1, retest=False)
+    rep = api.assay(command=cmd, shell=True, budget="1MiB", workers=1)
     assert rep.source["bytes_read"] == MiB and not rep.incomplete
 
 

@@ -19,7 +19,7 @@ def _check(cid, p, grade):
 def _report(checks, sha="aa" * 32, verdict=None):
     if verdict is None:
         grades = {c.grade for c in checks}
-        verdict = "fail" if "fail" in grades else "borderline" if "borderline" in grades else "pass"
+        verdict = "fail" if "fail" in grades else "notable" if "notable" in grades else "pass"
     return Report(command="test", source={"kind": "file", "name": "s.bin", "format": "u1", "bytes_read": 1024,
                                           "sha256": sha},
                   budget_bytes=1024, alpha=0.01, verdict=verdict, combined_p=0.5, checks=checks)
@@ -31,8 +31,8 @@ def pair():
         _check("a newly failing", 0.30, "pass"),
         _check("b fixed", 1e-9, "fail"),
         _check("c much smaller p", 0.20, "pass"),
-        _check("d pass to borderline", 0.02, "pass"),
-        _check("e borderline to pass", 0.004, "borderline"),
+        _check("d pass to notable", 0.02, "pass"),
+        _check("e notable to pass", 0.004, "notable"),
         _check("f much larger p", 1e-5, "pass"),
         _check("g small wiggle", 0.50, "pass"),
         _check("h removed", 0.50, "pass"),
@@ -41,8 +41,8 @@ def pair():
         _check("a newly failing", 1e-12, "fail"),
         _check("b fixed", 0.40, "pass"),
         _check("c much smaller p", 1e-4, "pass"),  # -log10 p: 0.70 -> 4.0, rise 3.3, new p < 1e-3
-        _check("d pass to borderline", 0.003, "borderline"),
-        _check("e borderline to pass", 0.30, "pass"),
+        _check("d pass to notable", 0.003, "notable"),
+        _check("e notable to pass", 0.30, "pass"),
         _check("f much larger p", 0.5, "pass"),
         _check("g small wiggle", 0.05, "pass"),  # rise of 1 only
         _check("i added", 0.70, "pass"),
@@ -60,8 +60,8 @@ def test_change_labels(pair):
         "a newly failing": ("new fail", True),
         "b fixed": ("fixed", False),
         "c much smaller p": ("stronger evidence", True),
-        "d pass to borderline": ("stronger evidence", True),
-        "e borderline to pass": ("weaker evidence", False),
+        "d pass to notable": ("stronger evidence", True),
+        "e notable to pass": ("weaker evidence", False),
         "f much larger p": ("weaker evidence", False),
         "g small wiggle": ("same", False),
         "h removed": ("removed", True),  # a removed check counts as worse (module docstring)
@@ -94,8 +94,8 @@ def test_marked_rule_boundaries():
     row = one(0.5, 0.0)
     assert row.change == "stronger evidence" and row.delta == pytest.approx(300 - 0.30103, abs=1e-4)
     assert one(0.5, float("nan")).change == "same" and one(0.5, float("nan")).delta is None
-    assert one(0.2, 0.3, "pass", "borderline").worse  # grade rise alone is enough
-    assert not one(0.01, 0.5, "borderline", "pass").worse
+    assert one(0.2, 0.3, "pass", "notable").worse  # grade rise alone is enough
+    assert not one(0.01, 0.5, "notable", "pass").worse
 
 
 def test_added_failing_check_counts_as_worse():

@@ -20,7 +20,7 @@ from rngassay.report.terminal import render
 
 def _lcg32_report() -> Report:
     return rngassay.assay(gen="lcg32", seed=3, fmt="<u4", budget="1MiB", workers=1,
-                          checks=["monobit frequency", "byte frequency"], retest=False)
+                          checks=["monobit frequency", "byte frequency"])
 
 
 def test_battery_files_the_findings_of_the_first_segment():
@@ -35,7 +35,7 @@ def test_battery_files_the_findings_of_the_first_segment():
 
 def test_sound_run_has_no_findings_and_shows_nothing():
     r = rngassay.assay(np.random.Generator(np.random.PCG64(20261203)), budget="1MiB", workers=1,
-                       checks=["monobit frequency"], retest=False)
+                       checks=["monobit frequency"])
     assert r.findings == []
     assert "findings" not in render(r)
     assert findings_html(r) == "" and 'class="findings"' not in render_html(r)

@@ -39,7 +39,7 @@ def report() -> Report:
     checks = [
         _check("serial d=3 overlapping", 0.61, "pass", _rounds((8, 0.61), seed=1), family="serial", adjusted=1.0),
         _check("gap [0, 0.5) t=16", 3.2e-9, "fail", _rounds((8, 2e-3), (16, 3.2e-9), seed=2), adjusted=9.6e-9),
-        _check("runs up", 4.4e-3, "borderline", _rounds((8, 0.02), (16, 4.4e-3), seed=3), family="runs",
+        _check("runs up", 4.4e-3, "notable", _rounds((8, 0.02), (16, 4.4e-3), seed=3), family="runs",
                adjusted=8.8e-3),
         _check("coupon collector d=8", 1e-300, "fail", _rounds((4, 1e-300), seed=4), family="coupon",
                adjusted=4e-300),
@@ -159,7 +159,7 @@ def test_check_table_worst_first_with_rounds(report, fast_figures):
     table = doc[doc.index('<table class="checks">'): doc.index("</table>")]
     order = [table.index(htmlmod.escape(c.id)) for c in report.worst_first()]
     assert order == sorted(order)
-    # worst first: the two fails (smallest p first), then the borderline, then the pass
+    # worst first: the two fails (smallest p first), then the notable, then the pass
     assert [c.id for c in report.worst_first()] == [
         "coupon collector d=8", "gap [0, 0.5) t=16", "runs up", "serial d=3 overlapping"]
     assert "rounds (p, replicates)" in table
@@ -167,7 +167,7 @@ def test_check_table_worst_first_with_rounds(report, fast_figures):
     assert "9.60e-09" in table  # Holm-adjusted p
     assert "t=16, lo=0, hi=0.5" in table
     assert not re.search(r">\s*0(\.0+)?\s*<", table)  # no p-value (or anything) printed as a bare 0
-    for g in ("pass", "borderline", "fail"):
+    for g in ("pass", "notable", "fail"):
         assert f'class="grade g-{g}">{g}</span>' in table
 
 

@@ -94,7 +94,7 @@ def _report(n_checks: int = 3) -> Report:
                   budget_bytes=4 << 20, alpha=1e-3, verdict="fail", combined_p=1e-12, checks=checks,
                   elapsed_s=1.5, plan=[{"id": c.id, "family": c.family, "params": c.params, "view": "uniforms",
                                         "bytes": 1 << 20, "replicates": 4} for c in checks],
-                  settings={"workers_used": 1, "retest": True, "segments": 4, "borderline_factor": 10.0,
+                  settings={"workers_used": 1, "segments": 4, "notable_factor": 10.0,
                             "shared_segments": True, "detail": {"a": None, "b": [1, 2]}},
                   audit={"invocation": "command line", "argv": ["rngassay", "test"], "started_utc": "2030-01-02T03:04:05Z",
                          "ended_utc": "2030-01-02T03:04:09Z", "versions": {"rngassay": "0"}, "seeds": [],
@@ -143,8 +143,8 @@ def test_run_section_has_human_labels_and_no_python_literals():
     text = d.section_text("run")
     for literal in ("True", "False", "None", "{", "}", "[", "]", "_"):
         assert literal not in text, literal
-    for words in ("Worker processes", "Borderline checks retested on fresh data", "Checks share segments",
-                  "4,194,304 bytes (4 MiB) in all", "4,194,304 bytes (4 MiB) per check at most", "yes",
+    for words in ("Worker processes", "Checks share segments",
+                  "4,194,304 bytes (4 MiB) in all", "4,194,304 bytes (4 MiB) in all (the checks share it)", "yes",
                   "a: not set; b: 1, 2", "Holm-adjusted p from alpha to 10 \u00d7 alpha"):
         assert words in text, words
 
@@ -162,7 +162,7 @@ def test_text_input_counts_values():
     rows = {k: v for k, v, _ in run_rows(r)}
     assert rows["Read"] == "2,000 bytes (1.95 KiB) in all" or rows["Read"].startswith("2,000 bytes")
     assert rows["Values read"] == "1,000 values in all"
-    assert rows["Budget"].endswith("values per check at most")
+    assert rows["Budget"].endswith("values in all (the checks share it)")
 
 
 # -- both tails ---------------------------------------------------------------------------------------------------
@@ -198,7 +198,7 @@ def test_summary_figure_draws_left_tail_checks_downward():
     texts = " ".join(t.get_text() for t in ax.texts)
     assert "left tail" in texts and "small p" in texts  # both directions are named on the figure
     legend = [t.get_text() for lg in fig.legends for t in lg.get_texts()]
-    assert {"pass", "borderline", "fail"} <= set(legend) and any(t.startswith("alpha") for t in legend)
+    assert {"pass", "notable", "fail"} <= set(legend) and any(t.startswith("alpha") for t in legend)
 
 
 def test_heat_map_colours_p_near_one_as_the_upper_colour_and_has_a_legend():

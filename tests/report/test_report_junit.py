@@ -22,7 +22,7 @@ def _check(cid, p, grade, adjusted=None, rounds=1, error=None):
 def report() -> Report:
     checks = [
         _check("gap [0, 0.5) t=16", 2.5e-7, "fail", adjusted=1.0e-6, rounds=2),
-        _check("runs up", 3.1e-3, "borderline", adjusted=1.2e-2, rounds=2),
+        _check("runs up", 3.1e-3, "notable", adjusted=1.2e-2, rounds=2),
         _check("serial d=2", 0.44, "pass", adjusted=1.0),
         _check("poker k=5", 0.0, "fail", adjusted=0.0, error="needs 5000 values, got 12"),
     ]
@@ -42,7 +42,7 @@ def test_parses_with_one_testcase_per_check(report):
     assert suites[0].get("failures") == "1" and suites[0].get("errors") == "1"
 
 
-def test_fail_borderline_pass_and_error_mapping(report):
+def test_fail_notable_pass_and_error_mapping(report):
     root = ET.fromstring(render_junit(report))
     cases = {c.get("name"): c for c in root.iter("testcase")}
     fail = cases["gap [0, 0.5) t=16"].find("failure")
@@ -52,7 +52,7 @@ def test_fail_borderline_pass_and_error_mapping(report):
     border = cases["runs up"]
     assert border.find("failure") is None and border.find("skipped") is None and border.find("error") is None
     out = border.find("system-out").text
-    assert out.startswith("borderline:") and "3.10e-03" in out and "1.20e-02" in out
+    assert out.startswith("notable:") and "3.10e-03" in out and "1.20e-02" in out
     passing = cases["serial d=2"]
     assert list(passing) == []
     err = cases["poker k=5"].find("error")

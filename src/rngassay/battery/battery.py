@@ -1,4 +1,4 @@
-"""The battery: run a plan on a stream, grade, retest borderline checks on fresh data, build the report."""
+"""The battery: run a plan on a stream, grade, build the report."""
 
 from __future__ import annotations
 
@@ -23,7 +23,6 @@ def run_battery(
     *,
     alpha: float = G.DEFAULT_ALPHA,
     workers: int | None = None,
-    retest: bool = True,
     progress: Callable[[str], None] | None = None,
     command: str = "test",
     settings: dict[str, Any] | None = None,
@@ -57,41 +56,6 @@ def run_battery(
         for o, r in zip(outcomes, rounds1):
             if r is None and o.errors:
                 checks.append(_error_report(o, registry))
-        # borderline checks: one retest on fresh, disjoint data when the source has more
-        border = [c for c in checks if c.grade == "borderline"]
-        if border and retest and complete and received_signal() is None:
-            if stream.ended and not stream.unlimited:
-                notes.append("borderline checks were not retested: the source has no more data")
-            else:
-                by_id = {o.check.id: o for o in outcomes}
-                todo = [by_id[c.id].check for c in border]
-                if progress:
-                    progress(f"retesting {len(todo)} borderline check(s) on fresh data")
-                try:  # (run_plan can be interrupted like the first round)
-                    # segments as long as the retested checks need, not a whole budget more
-                    plan2 = dataclasses.replace(plan, segment_bytes=max(pc.bytes for pc in todo))
-                    outs2, complete2, reason2, err2 = run_plan(stream, plan2, ex, checks=todo, progress=progress,
-                                                               stage="retest")
-                    if err2 is not None:
-                        raise err2
-                except Exception as e:  # no more data: keep round one
-                    outs2, complete2, reason2 = [], True, None
-                    notes.append(f"borderline checks were not retested: {getattr(e, 'line', lambda: str(e))()}")
-                for o2 in outs2:
-                    r2 = G.second_level(o2)
-                    c = next(c for c in checks if c.id == o2.check.id)
-                    if r2 is None:
-                        continue
-                    g2, a2 = G.retest_grade(r2.p_value, m, alpha)
-                    c.rounds.append(_round(r2, o2))
-                    c.p_value, c.adjusted_p, c.grade = r2.p_value, a2, g2
-                    c.bytes += o2.bytes
-                    c.replicates = r2.replicates
-                    c.second_level = r2.second_level
-                    c.statistic = r2.statistic
-                    c.seconds = round(c.seconds + o2.seconds, 4)
-                if not complete2:
-                    complete, reason = False, reason2
     for c in checks:  # findings a check names in words (e.g. the grid the values lie on)
         note = (c.second_level.get("pooled") or {}).get("note")
         if note:
@@ -118,7 +82,7 @@ def run_battery(
         elapsed_s=time.perf_counter() - t0,
         plan=plan.to_list(),
         settings=dict(settings or {}, segments=plan.segments,
-                      borderline_factor=G.BORDERLINE_FACTOR),
+                      notable_factor=G.NOTABLE_FACTOR),
         notes=notes,
         audit={"completed": completed_counts(outcomes)},
         findings=findings,
@@ -140,7 +104,7 @@ def stopped_report(stream: Stream, plan: Plan, reason: str, *, alpha: float = G.
         verdict=NO_VERDICT, combined_p=None, checks=[], incomplete=True,
         elapsed_s=time.perf_counter() - (t0 if t0 is not None else time.perf_counter()), plan=plan.to_list(),
         settings=dict(settings or {}, segments=plan.segments,
-                      borderline_factor=G.BORDERLINE_FACTOR),
+                      notable_factor=G.NOTABLE_FACTOR),
         notes=notes,
         audit={"completed": completed_counts(outcomes)},
     )

@@ -49,7 +49,7 @@ from ..intake.variates import Variates, read_variates, variates_from_array
 from ..intake.views import decimal_grid
 from ..model import CAUTIONS, CheckReport, Report
 from .defaults import DEFAULT_PIT_SEED
-from .grade import BORDERLINE_FACTOR, graded_report
+from .grade import NOTABLE_FACTOR, graded_report
 
 #: Fewest values a fit runs on.
 MIN_FIT_VALUES = 50
@@ -154,7 +154,7 @@ def fit_values(
         raise InputError("no check matched the selection", "", "see the check names in a full run, or drop --checks/--skip")
     defer_signals()  # a later stop signal is recorded, not raised: grading and the reports run to the end
     settings.update({"alpha": alpha, "multiple_testing": "Holm over fit and PIT battery checks together",
-                     "borderline_factor": BORDERLINE_FACTOR, "workers_used": workers})
+                     "notable_factor": NOTABLE_FACTOR, "workers_used": workers})
     return graded_report(
         "fit", rows, alpha=alpha, source=var.source, budget_bytes=nbytes, incomplete=incomplete,
         elapsed_s=time.perf_counter() - t0, plan=plan_items, settings=settings, notes=notes,
@@ -270,8 +270,8 @@ def _pit_battery(u, decl, var, checks, skip, alpha, workers, progress, notes) ->
         return None
     with stream_from_array(u, "<f8", name=f"PIT values of {var.source.get('name')} under {decl.spec}",
                            kind="derived") as stream:
-        rep = run_battery(stream, plan, alpha=alpha, workers=workers, retest=False, progress=progress,
-                          command="fit", settings={"workers_used": workers, "retest": False})
+        rep = run_battery(stream, plan, alpha=alpha, workers=workers, progress=progress,
+                          command="fit", settings={"workers_used": workers})
     if rep.input_error is not None:  # values made here are valid: bad data would be a fault of ours
         raise rep.input_error
     return rep

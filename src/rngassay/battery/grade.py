@@ -29,13 +29,13 @@ First-level p-values are two-sided (``2 · min(right, left)``) where the registr
 
 Run level
 ---------
-Holm's step-down procedure over the checks' p-values at ``alpha`` (default 0.001): a sound generator
-fails a run in the first round with probability at most ``alpha`` (the retest below adds at most
-``BORDERLINE_FACTOR · alpha²``, since it runs on fresh data: alpha · (1 + 10 alpha) in all). A check Holm rejects is ``fail``. A check whose
-Holm-adjusted p-value is below ``BORDERLINE_FACTOR · alpha`` (10 · alpha) but not below ``alpha`` is
-``borderline``; it is retested once on fresh, disjoint data when the source has more. The retest is
-judged alone with a Bonferroni factor equal to the number of checks: ``fail`` below alpha,
-``borderline`` below 10 · alpha, else ``pass``. Both rounds are kept in the report.
+Holm's step-down procedure over the checks' p-values at ``alpha`` (default 0.001): a sound generator fails a
+run with probability at most ``alpha``. A check Holm rejects is ``fail``. A check whose Holm-adjusted p-value is
+below ``NOTABLE_FACTOR · alpha`` (10 · alpha) but not below ``alpha`` is ``notable``: it would fail at a
+family-wise alpha ten times larger, so a sound generator gets a ``notable`` (or worse) check in at most 10 · alpha
+of its runs (1 % at the default) -- a calibrated middle grade, nothing more. There is no retest: a user who wants
+the question settled grows the run on fresh data (``--grow-to``, :mod:`.growth`), with alpha spent over the
+stages.
 
 The headline also carries one combined p-value over all checks: the harmonic mean p-value (Wilson 2019,
 PNAS 116:1195–1200, the asymptotically exact version via the Landau distribution), valid under
@@ -59,7 +59,7 @@ from ..model import NO_VERDICT, Report
 from .run import Outcome
 
 DEFAULT_ALPHA = 1e-3
-BORDERLINE_FACTOR = 10.0
+NOTABLE_FACTOR = 10.0
 PROPORTION_THRESHOLD = 0.01
 
 
@@ -221,7 +221,7 @@ def _pool(firsts: list[CheckResult], both: bool) -> dict[str, Any] | None:
 
 
 def holm_grades(ps: list[float], alpha: float) -> tuple[list[str], list[float]]:
-    """Grades from Holm-adjusted p-values: fail < alpha <= borderline < 10 alpha <= pass."""
+    """Grades from Holm-adjusted p-values: fail < alpha <= notable < 10 alpha <= pass."""
     if not ps:
         return [], []
     adj = [float(a) for a in stats.holm_adjusted(np.asarray(ps, dtype=float))]
@@ -231,14 +231,9 @@ def holm_grades(ps: list[float], alpha: float) -> tuple[list[str], list[float]]:
 def grade_of(adjusted_p: float, alpha: float) -> str:
     if adjusted_p < alpha:
         return "fail"
-    if adjusted_p < BORDERLINE_FACTOR * alpha:
-        return "borderline"
+    if adjusted_p < NOTABLE_FACTOR * alpha:
+        return "notable"
     return "pass"
-
-
-def retest_grade(p: float, m: int, alpha: float) -> tuple[str, float]:
-    adj = min(1.0, p * m)
-    return grade_of(adj, alpha), adj
 
 
 def combined_p(ps: list[float]) -> float | None:
@@ -252,8 +247,8 @@ def combined_p(ps: list[float]) -> float | None:
 def run_verdict(grades: list[str]) -> str:
     if "fail" in grades:
         return "fail"
-    if "borderline" in grades:
-        return "borderline"
+    if "notable" in grades:
+        return "notable"
     return "pass"
 
 

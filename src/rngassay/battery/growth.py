@@ -19,8 +19,8 @@ whatever the stages' dependence (here they are independent: disjoint data). The 
 alpha fairly evenly over the information, so an early stage keeps enough level to stop on a gross flaw, which is
 what growth is for; O'Brien-Fleming-type spending would leave the first stages almost no level.
 
-The middle grade keeps its meaning within a stage (a Holm-adjusted p-value below ``BORDERLINE_FACTOR``
-times the stage's level); there is no retest: the next stage is the fresh look at more data.
+The middle grade keeps its meaning within a stage (a Holm-adjusted p-value below ``NOTABLE_FACTOR``
+times the stage's level); the next stage is the fresh look at more data.
 """
 
 from __future__ import annotations
@@ -121,7 +121,7 @@ class _Kept:
 def run_growth(stream: Any, gp: GrowthPlan, *, run_stage: Callable[..., Report], executor: Any,
                progress: Callable[[str], None] | None = None) -> Report:
     """Run the stages in turn (``run_stage(stream, plan, alpha=..., executor=..., progress=...)`` is the battery
-    without its retest), stop after the first stage with a failing check or an incomplete stage, and merge the
+    of one stage), stop after the first stage with a failing check or an incomplete stage, and merge the
     stages into one report: the last stage's grades, every stage as a round of each check, the growth record."""
     from .run import Stage
 

@@ -91,8 +91,7 @@ class Plan:
             f"plan: {len(self.checks)} checks, up to {self.segments} replicates each, on {self.segments} segments of "
             f"{self.segment_bytes} {unit} that all checks share",
             f"budget {budget}; format {self.fmt.describe()}",
-            f"reads {total} {unit} in all" + (f" ({format_size(total)})" if self.fmt.is_binary else "")
-            + "; a borderline retest reads once more what the retested checks need",
+            f"reads {total} {unit} in all" + (f" ({format_size(total)})" if self.fmt.is_binary else ""),
             "",
             f"  {'check':<52} {'family':<11} {'view':<9} {'per replicate':>14} {'replicates':>10} {'share':>6}"
             "  sized to the data",

@@ -64,7 +64,7 @@ MEANINGS = {
     "json": "Write the report as JSON (versioned schema).",
     "html": "Write a self-contained HTML report with figures.",
     "junit": "Write JUnit XML: one test case per check.",
-    "strict": "Exit 1 for a borderline run too.",
+    "strict": "Exit 1 for a notable run too.",
     "quiet": "Quiet: no progress display on stderr. Only the progress goes: the results, the report paths, a drawn "
              "seed and error lines are still printed.",
     "alpha": "Family-wise false-alarm rate of a run (Holm).",
@@ -194,7 +194,7 @@ def split(values: tuple[str, ...]) -> list[str] | None:
 
 
 def finish(report, outputs: list[tuple[str, str]], strict: bool) -> None:
-    """Write the reports, print the table and exit: 0 pass (and borderline unless strict), 1 fail or an
+    """Write the reports, print the table and exit: 0 pass (and notable unless strict), 1 fail or an
     incomplete run, 128 + the signal when a stop signal ended it. Shared by `test`, `fit` and `seeds`.
     A report that cannot be written still leaves the verdict and the table on standard output (then exit 2)."""
     try:

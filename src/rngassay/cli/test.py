@@ -17,16 +17,14 @@ from .common import (EXIT_OK, Progress, alpha_option, announce_seeds, budget_opt
 @selection_options()
 @alpha_option()
 @workers_option("Default: one per core; a run of at most 8 MiB in this process.")
-@click.option("--no-retest", is_flag=True, help="Do not retest borderline checks on fresh data.")
 @click.option("--grow-to", "grow_to", default=None, metavar="SIZE",
               help="Grow to a decision: run at the budget, then on fresh data at 2x, 4x, ... up to SIZE, stopping at "
-                   "the first stage where a check fails (family-wise alpha over all stages by alpha spending; no "
-                   "retest).")
+                   "the first stage where a check fails (family-wise alpha over all stages by alpha spending).")
 @plan_only_option("The plan also shows the segments and replicates.")
 @cluster_option
 @report_options
 def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, budget, checks, skip, alpha,
-             workers, no_retest, grow_to, plan_only, cluster, json_path, html_path, junit_path, strict, quiet) -> None:
+             workers, grow_to, plan_only, cluster, json_path, html_path, junit_path, strict, quiet) -> None:
     """Assay a stream: read it, run the checks, grade, report; exit 0 pass, 1 fail, 2 bad input."""
     from ..signals import defer_signals
 
@@ -45,7 +43,7 @@ def test_cmd(source, fmt, value_range, command, shell, python_spec, gen, seed, b
     try:
         result = api.assay(
             spec, budget=budget, checks=split(checks), skip=split(skip), alpha=alpha,
-            workers=workers or "auto", retest=not no_retest, progress=progress, plan_only=plan_only,
+            workers=workers or "auto", progress=progress, plan_only=plan_only,
             cluster=cluster, partial=True, argv=run_argv(), grow_to=grow_to,
         )
     finally:

@@ -8,9 +8,9 @@ Each check gets one change label, decided in this order:
 1. ``added`` (only in NEW) / ``removed`` (only in BASE);
 2. ``new fail``  -- NEW grades it ``fail`` and BASE did not;
 3. ``fixed``     -- BASE graded it ``fail`` and NEW does not;
-4. ``stronger evidence`` -- the grade rose from ``pass`` to ``borderline``, or the grade is the same and
+4. ``stronger evidence`` -- the grade rose from ``pass`` to ``notable``, or the grade is the same and
    -log10 p rose by at least ``MARKED`` (3, i.e. p fell by a factor of 1000 or more);
-5. ``weaker evidence``   -- the grade fell from ``borderline`` to ``pass``, or the grade is the same and
+5. ``weaker evidence``   -- the grade fell from ``notable`` to ``pass``, or the grade is the same and
    -log10 p fell by at least ``MARKED``;
 6. ``same`` otherwise.
 
@@ -19,7 +19,7 @@ when any check
 
 - is a ``new fail``, or was ``added`` with grade ``fail``;
 - was ``removed`` (a check that no longer runs can no longer vouch for anything);
-- went from ``pass`` to ``borderline``;
+- went from ``pass`` to ``notable``;
 - or shows markedly stronger evidence, judged on the Holm-adjusted p-values (``adjusted_p``) when both
   reports carry them: -log10 adjusted p rose by at least 3 *and* the new adjusted p is below 0.01.
   Holm's adjustment already accounts for the number of checks, so for two sound streams the chance of
@@ -44,7 +44,7 @@ MARKED = 3.0  # change in -log10 p that counts as marked
 WORSE_P = 1e-3  # ... and the new raw p-value must be below this for "worse" (fallback rule)
 WORSE_ADJ = 0.01  # ... or the new Holm-adjusted p-value below this (rule used when both have adjusted p)
 P_FLOOR = 1e-300
-_RANK = {"pass": 0, "borderline": 1, "fail": 2}
+_RANK = {"pass": 0, "notable": 1, "fail": 2}
 _ORDER = ("new fail", "stronger evidence", "added", "removed", "weaker evidence", "fixed", "same")
 
 
@@ -205,7 +205,7 @@ def render_diff_text(result: DiffResult, show_same: bool = False) -> str:
         lines.append(f"  ({hidden} unchanged check{'s' if hidden != 1 else ''} not shown)")
     lines.append("")
     lines.append(
-        "rule: new is worse when a check newly fails, goes from pass to borderline, is removed, or its "
+        "rule: new is worse when a check newly fails, goes from pass to notable, is removed, or its "
         f"Holm-adjusted -log10 p rises by at least {MARKED:g} to an adjusted p below {WORSE_ADJ:g} (raw p below "
         f"{WORSE_P:g} for reports without adjusted p-values), or when the new report is incomplete ('!' marks checks)"
     )

@@ -23,11 +23,11 @@ from .draw import DPI, INK, REF, _blank, _empty, _figure, _png, _shorten  # noqa
 P_FLOOR = 1e-300  # smallest p-value drawn; anything smaller (or 0 from underflow) is drawn as this
 HEAT_CAP = 8.0  # colour scale of the heat map stops at p = 1e-8 (and 1 - p = 1e-8)
 MAX_ROWS = 40  # the heat map shows at most this many checks (worst first)
-MAX_NUMBERED = 8  # the summary figure numbers the failing and borderline checks when there are at most this many
+MAX_NUMBERED = 8  # the summary figure numbers the failing and notable checks when there are at most this many
 MAX_QQ_POINTS = 4000  # the Q-Q plot draws at most this many order statistics (evenly spaced ranks)
 SYMLOG_ABOVE = 30.0  # the bar chart's axis turns logarithmic beyond 5 when some -log10 p exceeds this
 
-GRADE_COLOURS = {"pass": "#4c8c6a", "borderline": "#d49a2a", "fail": "#b8413a"}
+GRADE_COLOURS = {"pass": "#4c8c6a", "notable": "#d49a2a", "fail": "#b8413a"}
 NO_DATA = "#d4d4d4"
 REGULAR = "#2c5d8f"  # text about the left tail (too regular)
 
@@ -208,15 +208,15 @@ def family_of(c: CheckReport) -> str:
 
 
 def marked_checks(report: Report, most: int = 12) -> list[CheckReport]:
-    """The checks the summary figure numbers (1, 2, ...): failing and borderline ones, strongest evidence
+    """The checks the summary figure numbers (1, 2, ...): failing and notable ones, strongest evidence
     first, at most ``most``."""
-    bad = [c for c in report.checks if c.grade in ("fail", "borderline") and isinstance(c.p_value, (int, float))
+    bad = [c for c in report.checks if c.grade in ("fail", "notable") and isinstance(c.p_value, (int, float))
            and math.isfinite(c.p_value)]
     return keep_left_tail(sorted(bad, key=lambda c: (c.p_value, c.id)), most)
 
 
 def keep_left_tail(ordered: list[CheckReport], most: int) -> list[CheckReport]:
-    """The first ``most`` of ``ordered``, except that failing or borderline checks in the left tail are kept
+    """The first ``most`` of ``ordered``, except that failing or notable checks in the left tail are kept
     (in place of the last others) so that a cut list never hides the "too regular" side."""
     if len(ordered) <= most:
         return list(ordered)
@@ -238,7 +238,7 @@ def evidence_figure(report: Report) -> Figure:
     """-log10 p of every check as a bar, checks grouped by family in the run's order: bars up for evidence in
     the usual tail (more deviation than chance), bars down for the left tail (too regular, see
     :func:`check_side`); coloured by grade; dashed lines at the run's alpha, dotted at Holm's cut (both
-    tails); failing and borderline checks numbered as in :func:`marked_checks`."""
+    tails); failing and notable checks numbered as in :func:`marked_checks`."""
     checks = [c for c in report.checks if isinstance(c.p_value, (int, float)) and math.isfinite(c.p_value)]
     bad = len(report.checks) - len(checks)
     fig = _figure(9.0, 3.7)
@@ -292,8 +292,8 @@ def evidence_figure(report: Report) -> Figure:
     from matplotlib.patches import Patch
 
     handles, labels = ax.get_legend_handles_labels()
-    handles += [Patch(color=GRADE_COLOURS[g]) for g in ("pass", "borderline", "fail")]
-    labels += ["pass", "borderline", "fail"]
+    handles += [Patch(color=GRADE_COLOURS[g]) for g in ("pass", "notable", "fail")]
+    labels += ["pass", "notable", "fail"]
     fig.legend(handles, labels, fontsize=7, loc="upper right", ncol=5, frameon=False, bbox_to_anchor=(0.99, 0.995))
     fig.text(0.01, 0.985, f"Evidence per check by family ({_plural(len(checks), 'check')}){_omitted(bad)}",
              fontsize=9, ha="left", va="top")

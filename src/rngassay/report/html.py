@@ -88,7 +88,7 @@ def _grade_cell(grade: str) -> str:
 _CSS = """
 .wide { overflow-x: auto; }  /* a narrow window scrolls the tables instead of cutting them */
 :root { --ink:#1f2328; --muted:#5b6570; --line:#d8dde3; --bg:#fbfbfa;
-        --pass:#2f7350; --borderline:#a86d07; --fail:#a8322b; }
+        --pass:#2f7350; --notable:#a86d07; --fail:#a8322b; }
 * { box-sizing: border-box; }
 body { margin: 0 auto; max-width: 1100px; padding: 1.2rem 1.4rem 3rem; color: var(--ink); background: var(--bg);
        font: 14px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; }
@@ -97,9 +97,9 @@ h2 { font-size: 1.05rem; margin: 2rem 0 .6rem; padding-bottom: .2rem; border-bot
 .banner { display: flex; gap: 1.5rem; align-items: center; padding: .9rem 1.1rem; border-radius: 6px;
           border: 1px solid var(--line); background: #fff; }
 .banner .word { font-size: 2rem; font-weight: 700; letter-spacing: .02em; }
-.banner.v-pass .word { color: var(--pass); } .banner.v-borderline .word { color: var(--borderline); }
+.banner.v-pass .word { color: var(--pass); } .banner.v-notable .word { color: var(--notable); }
 .banner.v-fail .word { color: var(--fail); }
-.banner.v-pass { border-left: 8px solid var(--pass); } .banner.v-borderline { border-left: 8px solid var(--borderline); }
+.banner.v-pass { border-left: 8px solid var(--pass); } .banner.v-notable { border-left: 8px solid var(--notable); }
 .banner.v-fail { border-left: 8px solid var(--fail); }
 .banner .facts { color: var(--muted); }
 .incomplete { margin: .8rem 0; padding: .6rem .9rem; background: #fff4d6; border: 1px solid #e7c66a; border-radius: 6px; }
@@ -114,7 +114,7 @@ td small { color: var(--muted); }
 tr.err td { color: var(--fail); font-size: .92em; border-top: 0; }
 .grade { display: inline-block; min-width: 5.5em; text-align: center; padding: 0 .4em; border-radius: 3px;
          color: #fff; font-size: .9em; }
-.g-pass { background: var(--pass); } .g-borderline { background: var(--borderline); }
+.g-pass { background: var(--pass); } .g-notable { background: var(--notable); }
 .g-fail { background: var(--fail); } .g-other { background: var(--muted); }
 .figs { display: grid; grid-template-columns: 1fr 1fr; gap: 1rem; }
 figure { margin: 0; padding: .6rem; background: #fff; border: 1px solid var(--line); border-radius: 6px; }
@@ -319,10 +319,10 @@ def _summary(r: Report, figs: dict[str, bytes]) -> list[str]:
     out = ['<section id="summary">', "<h2>Evidence at a glance</h2>", _figure_html("summary", figs["summary"])]
     marks = marked_checks(r)
     if marks:
-        bad = sum(1 for c in r.checks if c.grade in ("fail", "borderline"))
+        bad = sum(1 for c in r.checks if c.grade in ("fail", "notable"))
         numbered = bad <= MAX_NUMBERED
         out.append(f"<p class=\"marks-head\">{'Numbered in the figure' if numbered else 'Strongest evidence'}"
-                   f" ({len(marks)} of {bad} failing or borderline):</p>")
+                   f" ({len(marks)} of {bad} failing or notable):</p>")
         out.append(f'<{"ol" if numbered else "ul"} class="marks">')
         for c in marks:
             side = " \u2014 left tail (statistic too small)" if regular_side(c)[0] < 0 else ""

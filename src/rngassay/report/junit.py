@@ -3,9 +3,9 @@
 Mapping (so that a CI job turns red exactly when the assay found a failure):
 
 - grade ``pass``        -> a passing testcase;
-- grade ``borderline``  -> a passing testcase with a ``<system-out>`` saying it is borderline and why
+- grade ``notable``  -> a passing testcase with a ``<system-out>`` saying it is notable and why
   (not ``<skipped>``: the check did run, and skipped cases are easy to overlook or are treated as
-  "not run" by CI dashboards; use ``--strict`` at the command line to make borderline fail the job);
+  "not run" by CI dashboards; use ``--strict`` at the command line to make notable fail the job);
 - grade ``fail``        -> a ``<failure>`` whose message gives the p-value and the Holm-adjusted p-value;
 - a check that could not run (``error`` set) -> an ``<error>`` element with the reason;
 - an incomplete run, or one in which no check finished (verdict "no verdict") -> one more testcase,
@@ -131,11 +131,12 @@ def render_junit(report: Report) -> str:
         elif c.grade == "fail":
             el = ET.SubElement(case, "failure", {"message": _x(_message(c)), "type": "fail"})
             el.text = _x(_details(c))
-        elif c.grade == "borderline":
+        elif c.grade == "notable":
             out = ET.SubElement(case, "system-out")
             out.text = _x(
-                f"borderline: {_message(c)}. The evidence is not strong enough to fail this check but is "
-                "stronger than a pass; more data (a larger budget) can settle it.\n" + _details(c)
+                f"notable: {_message(c)}. The check would fail at a family-wise alpha ten times larger; a sound "
+                "source gets such a grade in at most 10 alpha of its runs. Grow the run on fresh data (--grow-to) "
+                "to settle it.\n" + _details(c)
             )
     if stopped:
         why = (r.incomplete_reason() or "no check finished") if r.incomplete else "no check finished"

@@ -17,9 +17,8 @@ SOURCE_KINDS = {"file": "file", "stdin": "standard input", "command": "output of
 # "Block seeds")
 LABELS = {
     "workers_used": "Worker processes",
-    "retest": "Borderline checks retested on fresh data",
     "segments": "Segments (one replicate of each check per segment)",
-    "borderline_factor": "Borderline band",
+    "notable_factor": "Notable band",
     "multiple_testing": "Multiple testing",
     "declaration": "Declared law",
     "declaration_kind": "Kind of declaration",
@@ -94,14 +93,14 @@ def run_rows(r: Report) -> list[tuple[str, str, bool]]:
         rows.append(("SHA-256 of what was read", str(src.pop("sha256")), True))
     rows += [(words(k), human(v, k), False) for k, v in src.items()]
     if r.command == "test":
-        rows.append(("Budget", amount(r.budget_bytes, "values" if text else "bytes", "per check at most"), False))
+        rows.append(("Budget", amount(r.budget_bytes, "values" if text else "bytes", "in all (the checks share it)"), False))
     elif r.command == "seeds":
         rows.append(("Budget", amount(r.budget_bytes, "bytes", "in all (every seed's stream)"), False))
     rows.append(("Alpha", f"{r.alpha:g} (family-wise false-alarm rate of the run, Holm's step-down)", False))
     settings = dict(r.settings or {})
-    bf = settings.pop("borderline_factor", None)
+    bf = settings.pop("notable_factor", None)
     if isinstance(bf, (int, float)):
-        rows.append(("Borderline band", f"Holm-adjusted p from alpha to {bf:g} \u00d7 alpha "
+        rows.append(("Notable band", f"Holm-adjusted p from alpha to {bf:g} \u00d7 alpha "
                      f"({r.alpha:g} to {bf * r.alpha:g})", False))
     pb = settings.pop("pit_battery", None)
     if isinstance(pb, dict):

@@ -7,7 +7,7 @@ from .stages import alpha_text, stage_lines
 from .findings import findings_lines
 from .trail import completed_text, left_out_lines, trail_rows
 
-_COLORS = {"fail": "\033[31;1m", "borderline": "\033[33;1m", "pass": "\033[32m"}
+_COLORS = {"fail": "\033[31;1m", "notable": "\033[33;1m", "pass": "\033[32m"}
 _RESET = "\033[0m"
 
 
@@ -39,13 +39,13 @@ def render(report: Report, color: bool = False, limit: int | None = None) -> str
     if limit is not None and len(rows) > limit:
         lines.append(f"  ... {len(rows) - limit} more checks, all graded as listed in the JSON/HTML report")
     lines += findings_lines(report)  # what was found, in words (report/findings.py)
-    counts = {g: sum(1 for c in report.checks if c.grade == g) for g in ("fail", "borderline", "pass")}
+    counts = {g: sum(1 for c in report.checks if c.grade == g) for g in ("fail", "notable", "pass")}
     lines.append("")
     done = completed_text(report) if report.incomplete else ""
     verdict = report.verdict + ((f" (incomplete run: {done})" if done else " (incomplete run)") if report.incomplete
                                 else "")
     lines.append(f"verdict      {_grade(verdict, color).rstrip()}   "
-                 f"{counts['fail']} fail, {counts['borderline']} borderline, {counts['pass']} pass "
+                 f"{counts['fail']} fail, {counts['notable']} notable, {counts['pass']} pass "
                  f"of {len(report.checks)} checks; {alpha_text(report)}")
     for t in stage_lines(report):
         lines.append(f"growth       {t}")

@@ -447,7 +447,7 @@ def sweep_report(sp: SweepPlan, tasks: SweepTasks, factory: SeedFactory, alpha: 
         "interleave": list(sp.ks), "merge_budget": o.merge_budget, "avalanche_seeds": int(sp.n_av),
         "seed_bits": o.seed_bits, "avalanche_output_bits": 8 * AVALANCHE_BYTES, "early_bytes": sp.P,
         "window_spacing": sp.spacing, "per_seed_checks": [pc.id for pc in sp.per_seed],
-        "borderline_factor": G.BORDERLINE_FACTOR,
+        "notable_factor": G.NOTABLE_FACTOR,
     }
     completed = [{"what": "seeds", "done": Sd, "planned": S}]
     if sp.edges is not None:
