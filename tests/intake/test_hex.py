@@ -8,8 +8,9 @@ import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st
 
+from _chunked import decode_in_pieces
 from rngassay.errors import InputError
-from rngassay.intake.formats import Decoder, parse_format
+from rngassay.intake.formats import parse_format
 from rngassay.intake.memory import BytesSource
 from rngassay.intake.sources import CommandSource, StdinSource
 from rngassay.intake.stream import Stream
@@ -18,13 +19,7 @@ HEX = parse_format("hex")
 
 
 def decode(data: bytes, cuts=()) -> bytes:
-    dec = Decoder(HEX, "test")
-    out, prev = [], 0
-    for c in sorted(set(min(c, len(data)) for c in cuts)) + [len(data)]:
-        out.append(dec.feed(data[prev:c]))
-        prev = c
-    out.append(dec.finish())
-    return np.concatenate(out).astype(np.uint8).tobytes()
+    return decode_in_pieces(HEX, data, cuts).astype(np.uint8).tobytes()
 
 
 @st.composite

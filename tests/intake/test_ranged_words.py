@@ -5,10 +5,11 @@ import numpy as np
 import pytest
 from hypothesis import assume, given, settings, strategies as st
 
+from _chunked import decode_in_pieces
 from rngassay.errors import InputError
 from rngassay.generators import MinstdStream
 from rngassay.intake import views
-from rngassay.intake.formats import Decoder, Format, parse_format
+from rngassay.intake.formats import Format, parse_format
 
 PM_LO, PM_HI = 1, 2**31 - 2  # Park & Miller's minimal standard: outputs 1 .. 2^31 - 2
 
@@ -20,14 +21,7 @@ def park_miller_words(n: int, seed: int = 1) -> np.ndarray:
     return w
 
 
-def decode(fmt, data: bytes, cuts=()) -> np.ndarray:
-    dec = Decoder(fmt, "test")
-    out, prev = [], 0
-    for c in sorted(set(min(c, len(data)) for c in cuts)) + [len(data)]:
-        out.append(dec.feed(data[prev:c]))
-        prev = c
-    out.append(dec.finish())
-    return np.concatenate(out)
+decode = decode_in_pieces
 
 
 ranges = st.sampled_from([("<u4", 1, 2**31 - 2), (">u4", 0, 2**31 - 1), ("<u4", 5, 2**28 + 4), (">u8", 7, 2**40 + 6),
