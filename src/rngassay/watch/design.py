@@ -13,6 +13,7 @@
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 from scipy.stats import norm, pearson3
@@ -65,6 +66,7 @@ def arl_one_sided(k: float, h: float, n_states: int = 400, shift: float = 0.0, s
     return float(L[0])
 
 
+@lru_cache(maxsize=256)
 def arl_two_sided(k: float, h: float, shift: float = 0.0, skew: float = 0.0, n_states: int = 400) -> float:
     """Two-sided ARL; the lower side sees ``-Z`` (shift and skewness change sign)."""
     up = arl_one_sided(k, h, n_states, shift, skew)
@@ -72,6 +74,7 @@ def arl_two_sided(k: float, h: float, shift: float = 0.0, skew: float = 0.0, n_s
     return 1.0 / (1.0 / up + 1.0 / down)
 
 
+@lru_cache(maxsize=64)
 def limit_for_arl(k: float, arl_target: float, skew: float = 0.0, n_states: int = 400) -> float:
     """The decision limit ``h`` whose two-sided in-control ARL (in batches) is ``arl_target``.
 
