@@ -6,6 +6,7 @@ Layers, top to bottom (a module may import its own layer and any layer below it)
   1 rngassay.api           the importable functions users call
   2 rngassay.report        renderers only (terminal, JSON files, HTML, JUnit, diff)
   3 rngassay.seeds         seed sweeps (built from the battery's parts)
+    rngassay.watch         outcome-log monitoring (same layer as seeds)
   4 rngassay.battery       plan, run, grade, conformance
   5 rngassay.model         the report data model
   6 rngassay.checks        check functions and their registry
@@ -27,7 +28,7 @@ LAYERS = [
     ("rngassay.cli", "rngassay._entry", "rngassay.__main__", "rngassay"),
     ("rngassay.api",),
     ("rngassay.report",),
-    ("rngassay.seeds",),
+    ("rngassay.seeds", "rngassay.watch"),
     ("rngassay.battery",),
     ("rngassay.model",),
     ("rngassay.checks",),

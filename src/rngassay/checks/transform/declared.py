@@ -41,6 +41,7 @@ class Declaration:
     frozen: Any = None
     outcomes: list[str] = field(default_factory=list)  # odds: outcome labels in declared order
     probs: np.ndarray | None = None  # odds: probabilities (normalised to sum 1)
+    prizes: np.ndarray | None = None  # odds: optional payout per unit stake of each outcome (same order)
 
 
 MAX_SPEC_CHARS = 200  # a --dist text longer than this is refused before parsing (deep nesting exhausts the parser)
@@ -166,6 +167,10 @@ def read_odds(path: str | os.PathLike) -> Declaration:
 
     Probabilities are numbers or fraction strings ("1/100"); they must be >= 0 and sum to 1 within
     1e-9; outcomes must be unique; at least two must have positive probability.
+
+    Optional prizes (payout per unit stake of each outcome, a finite number >= 0): a third CSV column
+    (header ``outcome,probability,prize``) or a TOML ``[prizes]`` table naming every outcome.  The
+    declared return rate is then ``sum(p_k * prize_k)``; ``fit`` ignores prizes.
     """
     path = os.fspath(path)
     if not os.path.exists(path):
@@ -182,9 +187,9 @@ def read_odds(path: str | os.PathLike) -> Declaration:
     except UnicodeDecodeError:
         raise InputError("odds file is not UTF-8 text", path, "save it as UTF-8") from None
     if path.lower().endswith(".toml"):
-        outcomes, probs = _odds_toml(text, path)
+        outcomes, probs, prizes = _odds_toml(text, path)
     else:
-        outcomes, probs = _odds_csv(text, path)
+        outcomes, probs, prizes = _odds_csv(text, path)
     if len(outcomes) < 2:
         raise InputError("an odds declaration needs at least two outcomes", path)
     total = math.fsum(probs)
@@ -194,12 +199,32 @@ def read_odds(path: str | os.PathLike) -> Declaration:
     if sum(1 for p in probs if p > 0) < 2:
         raise InputError("at least two outcomes need a positive probability", path)
     p = np.asarray(probs, dtype=np.float64)
-    return Declaration("odds", f"odds from {os.path.basename(path)}", outcomes=outcomes, probs=p / p.sum())
+    return Declaration("odds", f"odds from {os.path.basename(path)}", outcomes=outcomes, probs=p / p.sum(),
+                       prizes=None if prizes is None else np.asarray(prizes, dtype=np.float64))
 
 
-def _odds_csv(text: str, path: str) -> tuple[list[str], list[float]]:
+def _parse_prize(text: Any, where: str) -> float:
+    """A prize: payout per unit stake, a finite number >= 0 (a fraction string such as "5/2" is accepted)."""
+    hint = "write the payout per unit stake, e.g. 2.5 (0 for a losing outcome)"
+    if isinstance(text, bool) or (not isinstance(text, (int, float, str))):
+        raise InputError(f"prize must be a number, not {text!r}", where, hint)
+    s = str(text).strip()
+    if any(len(d) > MAX_NUMBER_DIGITS for d in re.findall(r"[0-9_]+", s)):
+        raise InputError(f"prize has a number of more than {MAX_NUMBER_DIGITS} digits", where, hint)
+    try:
+        v = float(Fraction(s)) if "/" in s else float(s)
+    except (ValueError, ZeroDivisionError, OverflowError):
+        raise InputError(f"cannot read prize {s[:40]!r}", where, hint) from None
+    if not math.isfinite(v) or v < 0:
+        raise InputError(f"prize {s[:40]!r} is not a finite number >= 0", where, hint)
+    return v
+
+
+def _odds_csv(text: str, path: str) -> tuple[list[str], list[float], list[float] | None]:
     reader = csv.reader(io.StringIO(text, newline=""), strict=True)
     header_seen = False
+    width = 2
+    prizes: list[float] = []
     seen: dict[str, int] = {}
     outcomes: list[str] = []
     probs: list[float] = []
@@ -211,14 +236,16 @@ def _odds_csv(text: str, path: str) -> tuple[list[str], list[float]]:
                 continue
             if not header_seen:
                 head = [c.strip().lower() for c in row]
-                if head != ["outcome", "probability"]:
-                    raise InputError(f"CSV header must be 'outcome,probability', got {','.join(row)!r}", where,
-                                     "first line: outcome,probability")
+                if head not in (["outcome", "probability"], ["outcome", "probability", "prize"]):
+                    raise InputError(f"CSV header must be 'outcome,probability' (or 'outcome,probability,prize'), "
+                                     f"got {','.join(row)!r}", where, "first line: outcome,probability")
                 header_seen = True
+                width = len(head)
                 continue
-            if len(row) != 2:
-                raise InputError(f"expected 2 fields (outcome, probability), got {len(row)}", where,
-                                 "one outcome per line: NAME,PROBABILITY")
+            if len(row) != width:
+                fields = "outcome, probability" + (", prize" if width == 3 else "")
+                raise InputError(f"expected {width} fields ({fields}), got {len(row)}", where,
+                                 "one outcome per line: NAME,PROBABILITY" + (",PRIZE" if width == 3 else ""))
             name = row[0].strip()
             if not name:
                 raise InputError("empty outcome name", where)
@@ -230,14 +257,16 @@ def _odds_csv(text: str, path: str) -> tuple[list[str], list[float]]:
             seen[name] = line
             outcomes.append(name)
             probs.append(_parse_probability(row[1], where))
+            if width == 3:
+                prizes.append(_parse_prize(row[2], where))
     except csv.Error as e:
         raise InputError(f"malformed CSV: {e}", f"{path} line {reader.line_num}") from None
     if not header_seen:
         raise InputError("empty odds file", path, "first line: outcome,probability")
-    return outcomes, probs
+    return outcomes, probs, (prizes if width == 3 else None)
 
 
-def _odds_toml(text: str, path: str) -> tuple[list[str], list[float]]:
+def _odds_toml(text: str, path: str) -> tuple[list[str], list[float], list[float] | None]:
     import tomllib
 
     try:
@@ -259,7 +288,31 @@ def _odds_toml(text: str, path: str) -> tuple[list[str], list[float]]:
             raise InputError(f"outcome {name!r} is empty or contains white space", _toml_where(path, lines, name))
         outcomes.append(str(name))
         probs.append(_parse_probability(value, _toml_where(path, lines, name)))
-    return outcomes, probs
+    return outcomes, probs, _prizes_toml(doc, outcomes, path, lines)
+
+
+def _prizes_toml(doc: dict, outcomes: list[str], path: str, lines: list[str]) -> list[float] | None:
+    if "prizes" not in doc:
+        return None
+    table = doc["prizes"]
+    if not isinstance(table, dict):
+        raise InputError("'prizes' must be a table", path, "[prizes] then one line per outcome: name = payout per unit stake")
+    start = next((i for i, ln in enumerate(lines) if re.match(r"^\s*\[\s*prizes\s*\]", ln)), 0)
+
+    def where(key: str) -> str:  # the key's line inside the [prizes] table
+        w = _toml_where(path, lines[start:], key)
+        m = re.search(r" line (\d+)$", w)
+        return f"{path} line {int(m.group(1)) + start}" if m else path
+
+    unknown = [k for k in table if k not in outcomes]
+    if unknown:
+        raise InputError(f"[prizes] names outcome {unknown[0]!r}, which [odds] does not declare",
+                         where(unknown[0]), "use the outcome names of [odds]")
+    missing = [k for k in outcomes if k not in table]
+    if missing:
+        raise InputError(f"[prizes] gives no prize for outcome {missing[0]!r}", path,
+                         "give every outcome a prize (0 for a losing outcome)")
+    return [_parse_prize(table[k], where(k)) for k in outcomes]
 
 
 def _toml_where(path: str, lines: list[str], key: str) -> str:
