@@ -5,7 +5,7 @@ Layers, top to bottom (a module may import its own layer and any layer below it)
   0 the command line (rngassay.cli, the console entry, ``python -m``, the package facade)
   1 rngassay.api           the importable functions users call
   2 rngassay.report        renderers only (terminal, JSON files, HTML, JUnit, diff)
-  3 rngassay.seeds         seed sweeps (built from the battery's parts)
+  3 rngassay.seeds         seed sweeps (built from the battery's parts); rngassay.watch beside it
   4 rngassay.battery       plan, run, grade, conformance
   5 rngassay.model         the report data model
   6 rngassay.checks        check functions and their registry
@@ -27,7 +27,7 @@ LAYERS = [
     ("rngassay.cli", "rngassay._entry", "rngassay.__main__", "rngassay"),
     ("rngassay.api",),
     ("rngassay.report",),
-    ("rngassay.seeds",),
+    ("rngassay.seeds", "rngassay.watch"),
     ("rngassay.battery",),
     ("rngassay.model",),
     ("rngassay.checks",),
