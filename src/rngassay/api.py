@@ -374,3 +374,23 @@ def _fit_values_read(decl, source, fmt, command, shell, python, gen, seed, budge
                          f"{var.values.size * per} available)", str(var.source.get("name", "")),
                          "give a smaller --budget (for text it counts values)")
     return var, raw
+
+
+def watch(log: str, odds: str | os.PathLike, *, state: str | None = None, once: bool = False, poll: float = 1.0,
+          outcome_column: str = "outcome", stake_column: str | None = None, payout_column: str | None = None,
+          time_column: str | None = None, log_format: str | None = None, alpha: float = 1e-3, skip_bad: bool = False,
+          start_over: bool = False, on_alarm: Callable[[dict], None] | None = None, monitor_module: Any = None):
+    """Watch an outcome log (a path, or ``"-"`` for standard input) against the odds file ``odds`` (CSV/TOML, as
+    :func:`fit` takes, optionally with prizes). The state (offset, log identity, monitor state, alarms, skipped
+    lines) lives in SQLite at ``state`` (default: beside the log, ``LOG.watch.sqlite``; for standard input only
+    if given). ``once``: process what is there and return; otherwise follow the file until a stop signal.
+    ``on_alarm`` is called with each alarm (a dict) after it is committed. Returns a
+    :class:`rngassay.watch.run.WatchResult`. Bad input, a changed odds file or alpha, or a truncated or rotated
+    log raise :class:`~rngassay.errors.InputError` (unless ``start_over``, which sets the old state aside)."""
+    from .watch.log import Columns
+    from .watch.run import watch as _watch
+
+    cols = Columns(outcome=outcome_column, stake=stake_column, payout=payout_column, time=time_column)
+    return _watch(os.fspath(log) if log != "-" else "-", os.fspath(odds), state_path=state, once=once, poll=poll,
+                  columns=cols, fmt=log_format, alpha=alpha, skip_bad=skip_bad, start_over=start_over,
+                  on_alarm=on_alarm, monitor_module=monitor_module)

@@ -13,7 +13,7 @@ import click
 
 from .._version import __version__
 from ..errors import InputError
-from . import catalog as _catalog, demo as _demo, fit as _fit, seeds as _seeds, test as _test
+from . import catalog as _catalog, demo as _demo, fit as _fit, seeds as _seeds, test as _test, watch as _watch
 from .common import (EXIT_INTERNAL, EXIT_OK, EXIT_USAGE, Progress, check_workers, finish,  # noqa: F401 (re-exported)
                      input_paths, one_line, stop_signal)
 
@@ -41,6 +41,7 @@ for _cmd in (_catalog.catalog, _catalog.emit, _test.test_cmd, _demo.demo, _demo.
     cli.add_command(_cmd)
 _fit.register_cli(cli)
 _seeds.register_cli(cli)
+_watch.register_cli(cli)
 
 
 def main(argv: list[str] | None = None) -> int:
