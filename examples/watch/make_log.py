@@ -19,7 +19,6 @@ import pathlib
 import numpy as np
 
 HERE = pathlib.Path(__file__).parent
-MULT = {"no_win": 0.0, "free_ticket": 1.0, "x2": 2.0, "x10": 10.0, "x100": 100.0, "x1000": 1000.0}
 
 
 def main() -> None:
@@ -36,6 +35,7 @@ def main() -> None:
         rows = list(csv.DictReader(f))
     tiers = [r["outcome"] for r in rows]
     p = np.array([float(r["probability"]) for r in rows])
+    prize = {r["outcome"]: float(r["prize"]) for r in rows}  # payout per unit stake (declared return rate 81 %)
     faulty = p.copy()
     faulty[tiers.index("x100")] *= 2
     faulty[tiers.index("no_win")] -= p[tiers.index("x100")]
@@ -50,7 +50,7 @@ def main() -> None:
         w.writerow(["seq", "time", "outcome", "stake", "payout"])
         for i, (k, s) in enumerate(zip(draws.tolist(), stakes.tolist())):
             t = (t0 + datetime.timedelta(seconds=3 * i)).isoformat()
-            w.writerow([i, t, tiers[k], f"{s:.2f}", f"{s * MULT[tiers[k]]:.2f}"])
+            w.writerow([i, t, tiers[k], f"{s:.2f}", f"{s * prize[tiers[k]]:.2f}"])
     print(f"wrote {a.plays} plays to {out}; fault (x100 paid twice as often) from play {a.fault_at}")
 
 

@@ -1,12 +1,9 @@
-import pathlib
-import sys
 
 import numpy as np
 import pytest
 from scipy import stats
 
-sys.path.insert(0, str(pathlib.Path(__file__).parent))
-from game import declared, draw  # noqa: E402
+from game import declared, draw
 
 from rngassay.watch.chart import CAUTION, render_html, render_png, wilson
 from rngassay.watch.monitor import Declared, Monitor

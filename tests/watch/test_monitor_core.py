@@ -2,8 +2,6 @@
 
 import json
 import math
-import sys
-import pathlib
 
 import mpmath
 import numpy as np
@@ -12,8 +10,7 @@ from hypothesis import given, settings, strategies as st
 from scipy import special as sp
 from scipy import stats
 
-sys.path.insert(0, str(pathlib.Path(__file__).parent))
-from game import CSV, PRIZES, PROBS, TIERS, declared, draw  # noqa: E402
+from game import CSV, PRIZES, PROBS, TIERS, declared, draw  # tests/watch/game.py (pytest puts this folder on the path)
 
 from rngassay.errors import InputError
 from rngassay.watch.design import binom_tail, streak_rule

@@ -1,15 +1,12 @@
 """Calibration and power of the outcome monitor by simulation (slow; fixed seeds)."""
 
 import math
-import pathlib
-import sys
 
 import numpy as np
 import pytest
 from scipy import stats
 
-sys.path.insert(0, str(pathlib.Path(__file__).parent))
-from game import PRIZES, PROBS, declared, draw  # noqa: E402
+from game import PRIZES, PROBS, declared, draw
 
 from rngassay.watch.design import arl_one_sided, arl_two_sided
 from rngassay.watch.monitor import Monitor

@@ -6,7 +6,7 @@ import json
 
 import click
 
-from .common import EXIT_FAIL, EXIT_OK, alpha_option, out, quiet_option
+from .common import EXIT_FAIL, EXIT_OK, alpha_option, out, quiet_option, shared
 
 CAUTION = ("an alarm is a reason to investigate, not proof of a fault or of fraud; regulated games answer to their "
            "jurisdiction's technical standards and accredited laboratories")
@@ -15,6 +15,22 @@ CAUTION = ("an alarm is a reason to investigate, not proof of a fault or of frau
 def _alarm_line(a: dict) -> str:
     keys = ("index", "line", "time", "statistic", "value", "threshold", "tier", "message")
     return json.dumps({"alarm": True, **{k: a.get(k) for k in keys}}, sort_keys=False)
+
+
+def _charts(res, html_path: str | None, png_path: str | None) -> None:
+    """The chart of the run, as HTML and/or PNG (watch/chart.py), once the log is processed."""
+    if not (html_path or png_path):
+        return
+    from ..report.files import write_atomic
+    from ..watch import chart
+
+    if png_path:
+        chart.render_png(res.summary, res.history, res.declared, png_path)
+        click.echo(f"rngassay: watch: chart written to {png_path}", err=True)
+    if html_path:
+        write_atomic(html_path, chart.render_html(res.summary, res.history, res.declared,
+                                                  title=f"Outcome watch: {res.log}"))
+        click.echo(f"rngassay: watch: chart written to {html_path}", err=True)
 
 
 def register_cli(cli_group) -> None:
@@ -45,11 +61,15 @@ def register_cli(cli_group) -> None:
     @click.option("--start-over", is_flag=True,
                   help="Begin a new state from the start of the log (after a rotation, a truncation or changed "
                        "settings); the old state file is kept, renamed beside it.")
+    @shared("html", "--html", "html_path", default=None, metavar="PATH",
+            tail="Here: the watch chart (e-values against their threshold, the return-rate CUSUM with its limits, "
+                 "tier frequencies against the declared odds) with the alarms, written when the run ends.")
+    @click.option("--png", "png_path", default=None, metavar="PATH", help="The same chart as a PNG image.")
     @alpha_option("Here: the chance that a game playing to its declared odds ever raises an alarm, however long "
                   "it is watched.")
     @quiet_option("Here: the summary line on stderr is left out too; alarms still go to stdout.")
     def watch_cmd(log, odds_path, state_path, once, poll, log_format, outcome_column, stake_column, payout_column,
-                  time_column, skip_bad, start_over, alpha, quiet) -> None:
+                  time_column, skip_bad, start_over, html_path, png_path, alpha, quiet) -> None:
         """Watch an outcome log (a file, or '-' for standard input) against its declared odds.
 
         Each alarm is one JSON line on stdout. Exit codes: 0 no alarm, 1 an alarm on record, 2 bad input;
@@ -57,6 +77,12 @@ def register_cli(cli_group) -> None:
         An alarm is a reason to investigate, not proof of a fault or of fraud.
         """
         from .. import api
+        from ..report.files import check_report_paths
+
+        inputs = [p for p in (log, odds_path, state_path) if p and p != "-"]
+        if log != "-" and state_path is None:
+            inputs.append(f"{log}.watch.sqlite")
+        check_report_paths([(w, p) for w, p in (("html chart", html_path), ("png chart", png_path)) if p], inputs)
 
         def on_alarm(a: dict) -> None:
             out(_alarm_line(a))
@@ -75,6 +101,7 @@ def register_cli(cli_group) -> None:
                        f"offset {res.offset}; state: {where}", err=True)
             if res.alarms_on_record:
                 click.echo(f"rngassay: watch: {CAUTION}", err=True)
+        _charts(res, html_path, png_path)
         if res.stopped_by is not None:
             from ..signals import signal_name
 
