@@ -111,7 +111,12 @@ def assay(
         budget_req = Budget(sum(sizes), budget_req.unit, True)
     with signal_guard(), stream:
         try:
-            resolved = resolve(stream, budget_req, plan_only)
+            try:
+                resolved = resolve(stream, budget_req, plan_only)
+            except InputError as e:
+                if growth is not None and e.what.startswith("stream is shorter"):
+                    e.hint = f"give a smaller --grow-to (growth reads all its stages: {budget_req.amount} in all)"
+                raise
             stream, f, budget_bytes = resolved.stream, resolved.stream.fmt, resolved.budget.amount
             grid_note = resolved.grid_note
         except KeyboardInterrupt as e:

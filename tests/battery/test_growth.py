@@ -107,3 +107,29 @@ def test_family_wise_error_over_all_stages_is_alpha():
                        for j in range(k))
     assert stats.binom.sf(fails - 1, n, alpha) >= 0.01, fails  # measured here: 5 of 200
     assert unspent > 2 * fails, (unspent, fails)  # measured here: 22 of 200 (11 %) without spending
+
+
+DYING = textwrap.dedent("""
+    import numpy as np
+    def make(seed=None):
+        rng = np.random.default_rng(seed)
+        got = [0]
+        def draw(n):
+            got[0] += n
+            if got[0] > 70 * 1024:  # the source dies early in the second stage
+                raise OSError("device gone")
+            return rng.bytes(n)
+        return draw
+""")
+
+
+def test_bad_data_in_a_later_stage_keeps_the_stages_before(tmp_path):
+    g = tmp_path / "dying.py"
+    g.write_text(DYING)
+    rep = api.assay(python=f"{g}:make", seed=1, budget="64KiB", grow_to="256KiB", checks=["byte frequency"],
+                    workers=1, partial=True)
+    assert rep.incomplete and rep.input_error is not None and "device gone" in rep.input_error.line()
+    assert len(rep.growth["stages"]) == 1 and rep.checks and rep.checks[0].bytes == 64 * KiB
+    assert any("stage 2 stopped by bad input" in n for n in rep.notes)
+    with pytest.raises(InputError, match="device gone"):
+        api.assay(python=f"{g}:make", seed=1, budget="64KiB", grow_to="256KiB", checks=["byte frequency"], workers=1)

@@ -172,3 +172,13 @@ def test_damaged_check_entries_are_refused(tmp_path, bad_check):
     p.write_text(json.dumps({"schema": "rngassay-report/1", "checks": [bad_check]}))
     with pytest.raises(InputError, match="damaged report"):
         read_report_json(p)
+
+
+def test_a_baseline_from_before_the_rename_keeps_its_middle_grade():
+    # reports written before wave 2e call the middle grade "borderline": borderline -> fail is a new fail
+    from rngassay.report.diff import _compare
+
+    old = {"grade": "borderline", "p_value": 1e-5, "adjusted_p": 0.004}
+    new = {"grade": "fail", "p_value": 1e-6, "adjusted_p": 0.0004}
+    r = _compare("x", old, new)
+    assert r.change == "new fail" and r.worse

@@ -102,3 +102,14 @@ def test_identity_notices_truncation_rotation_rewrite(tmp_path):
     assert "rotated" in check_same_log(str(f), saved, off)
     os.remove(f)
     assert "gone" in check_same_log(str(f), saved, off)
+
+
+def test_an_empty_log_whose_name_does_not_say_its_format_is_refused(tmp_path):
+    # guessing would bind the state to the guess (JSON lines arriving later would then be refused)
+    from rngassay.errors import InputError
+    from rngassay.watch.log import sniff_format
+
+    with pytest.raises(InputError, match="--log-format"):
+        sniff_format(str(tmp_path / "game.log"), b"")
+    assert sniff_format(str(tmp_path / "game.jsonl"), b"") == "jsonl"
+    assert sniff_format(str(tmp_path / "game.log"), b'{"outcome": "lose"}\n') == "jsonl"

@@ -136,7 +136,15 @@ def run_growth(stream: Any, gp: GrowthPlan, *, run_stage: Callable[..., Report],
                 d = getattr(text, "done", None)
                 progress(Stage(label, before + d, total, text.unit, f"stage {k + 1}") if d is not None else label)
 
-            rep = run_stage(stream, plan, alpha=a, executor=_Kept(ex), progress=stage_progress)
+            try:
+                rep = run_stage(stream, plan, alpha=a, executor=_Kept(ex), progress=stage_progress)
+            except InputError as e:  # bad data before any check of this stage finished: keep the stages before
+                if not reports:
+                    raise
+                reports[-1].input_error = e
+                reports[-1].incomplete = True
+                reports[-1].notes.append(f"incomplete run: stage {k + 1} stopped by bad input: {e.line()}")
+                break
             reports.append(rep)
             done_before += plan.bytes_total()
             if rep.incomplete or rep.input_error is not None or any(c.grade == "fail" for c in rep.checks):
@@ -178,7 +186,7 @@ def merge_stages(gp: GrowthPlan, reports: list[Report]) -> Report:
     for cid, size in first_failed.items():
         notes.append(f"{cid}: first failed at {_size(size, binary)} (stage {gp.sizes.index(size) + 1})")
     return replace(last, checks=checks, alpha=gp.alpha, budget_bytes=sum(r.budget_bytes for r in reports),
-                   elapsed_s=sum(r.elapsed_s for r in reports) if len(reports) > 1 else last.elapsed_s,
+                   elapsed_s=last.elapsed_s,  # every stage counts from the run's start
                    plan=last.plan, notes=notes, growth=growth,
                    settings=dict(last.settings, growth_stages=len(reports)))
 

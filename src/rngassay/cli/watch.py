@@ -65,8 +65,9 @@ def register_cli(cli_group) -> None:
             tail="Here: the watch chart (e-values against their threshold, the return-rate CUSUM with its limits, "
                  "tier frequencies against the declared odds) with the alarms, written when the run ends.")
     @click.option("--png", "png_path", default=None, metavar="PATH", help="The same chart as a PNG image.")
-    @alpha_option("Here: the chance that a game playing to its declared odds ever raises an alarm, however long "
-                  "it is watched.")
+    @alpha_option("Here: it bounds the chance that a game playing to its declared odds ever raises an e-value "
+                  "alarm, however long it is watched; the streak alarm adds at most alpha per 10^8 outcomes, and "
+                  "the return-rate CUSUM alarms about once per 10^7 sound outcomes (its ARL).")
     @quiet_option("Here: the summary line on stderr is left out too; alarms still go to stdout.")
     def watch_cmd(log, odds_path, state_path, once, poll, log_format, outcome_column, stake_column, payout_column,
                   time_column, skip_bad, start_over, html_path, png_path, alpha, quiet) -> None:

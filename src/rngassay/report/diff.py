@@ -44,7 +44,7 @@ MARKED = 3.0  # change in -log10 p that counts as marked
 WORSE_P = 1e-3  # ... and the new raw p-value must be below this for "worse" (fallback rule)
 WORSE_ADJ = 0.01  # ... or the new Holm-adjusted p-value below this (rule used when both have adjusted p)
 P_FLOOR = 1e-300
-_RANK = {"pass": 0, "notable": 1, "fail": 2}
+_RANK = {"pass": 0, "notable": 1, "borderline": 1, "fail": 2}  # ("borderline": the middle grade's name before 2e)
 _ORDER = ("new fail", "stronger evidence", "added", "removed", "weaker evidence", "fixed", "same")
 
 

@@ -53,6 +53,9 @@ def sniff_format(name: str, first_bytes: bytes) -> str:
         return "jsonl"
     if low.endswith((".csv", ".txt")):
         return "csv"
+    if not first_bytes.strip():  # nothing to tell it by: guessing would bind the state to a guess
+        raise InputError("the log is empty and its name does not say its format", name or "standard input",
+                         "give --log-format csv or --log-format jsonl")
     return "jsonl" if first_bytes.lstrip().startswith(b"{") else "csv"
 
 
