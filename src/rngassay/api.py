@@ -11,7 +11,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-from .errors import InputError
+from .errors import InputError, check_alpha
 from .intake.budget import requested, resolve
 from .intake.memory import DEFAULT_BUDGET, stream_from_array  # noqa: F401 (stream_from_array: part of the API)
 from .intake.open import SourceSpec, open_stream  # noqa: F401 (open_stream: part of the API)
@@ -84,8 +84,7 @@ def assay(
         "source": source, "budget": budget, "fmt": fmt, "value_range": value_range, "command": command,
         "shell": shell or None, "python": python, "gen": gen, "seed": seed, "checks": checks, "skip": skip,
         "alpha": alpha, "workers": workers, "cluster": cluster, "grow_to": grow_to})
-    if not (0 < alpha < 1):
-        raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
+    check_alpha(alpha)
     executor = None
     if cluster is not None and not plan_only:
         from .battery.cluster import DaskExecutor
@@ -310,8 +309,7 @@ def fit(
         raise InputError("give exactly one of --dist and --odds" if dist is not None else "give --dist SPEC or --odds FILE",
                          "", "--dist for a scipy.stats distribution (e.g. --dist 'norm(loc=0, scale=1)'), "
                          "--odds for a table of outcome probabilities")
-    if not 0 < alpha < 1:
-        raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
+    check_alpha(alpha)
     decl = parse_dist_spec(dist) if dist is not None else read_odds(odds)  # type: ignore[arg-type]
     if progress:
         progress("reading the values")

@@ -26,3 +26,14 @@ class InputError(ValueError):
         if self.hint:
             parts.append(self.hint)
         return "; ".join(parts)
+
+
+#: Largest --alpha of a graded run: the middle grade ("notable") reaches 10 alpha, which must stay below 1.
+MAX_GRADED_ALPHA = 0.1
+
+
+def check_alpha(alpha: float, upper: float = MAX_GRADED_ALPHA) -> None:
+    """``--alpha`` must lie in (0, upper): one rule for every command (``upper`` 1 where there is no middle grade)."""
+    if not (0 < alpha < upper):
+        why = " (the notable grade reaches 10 times alpha)" if upper == MAX_GRADED_ALPHA else ""
+        raise InputError(f"--alpha must be between 0 and {upper:g}{why}, got {alpha}", "", "e.g. --alpha 0.001")

@@ -183,3 +183,10 @@ def test_bad_value_mid_run_reports_partial_then_error(fake_registry, monkeypatch
     part = api.assay(ByteSource(data), fmt="<f8", workers=1, partial=True)
     assert part.incomplete and part.checks[0].replicates == 2
     assert f"byte offset {seg * 2 + 40}" in part.input_error.line()
+
+
+@pytest.mark.parametrize("alpha", [0.0, -0.1, 0.1, 0.5, 1.0])
+def test_alpha_outside_the_graded_range_is_one_clear_error(run_cli, alpha):
+    # at alpha >= 0.1 the notable band (10 alpha) would cover every p-value below 1
+    r = run_cli("test", "--gen", "pcg64", "--budget", "64KiB", "--alpha", str(alpha))
+    assert r.code == 2 and len(r.err.strip().splitlines()) == 1 and "between 0 and 0.1" in r.err

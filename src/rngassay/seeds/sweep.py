@@ -47,7 +47,7 @@ from ..battery.plan import PlannedCheck, make_plan
 from ..battery.run import ViewCache, call_check, run_plan
 from ..checks.catalog import load_all
 from ..checks.registry import selected
-from ..errors import InputError
+from ..errors import InputError, check_alpha
 from ..intake.formats import parse_format
 from ..intake.memory import BytesSource
 from ..intake.stream import Stream
@@ -206,8 +206,7 @@ def per_seed_plan(B: int, selectors: list[str] | None) -> tuple[list[PlannedChec
 
 
 def _validate(seeds: np.ndarray, o: SweepOptions, alpha: float) -> None:
-    if not (0 < alpha < 1):
-        raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
+    check_alpha(alpha)
     if seeds.size == 0:
         raise InputError("empty seed set", "--seeds", "give at least one seed, e.g. --seeds 0..999")
     B = int(o.bytes_per_seed)

@@ -17,7 +17,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-from ..errors import InputError
+from ..errors import InputError, check_alpha
 from ..signals import Interrupted, armed, defer_signals, received_signal, signal_guard, signals_deferred
 from .log import Columns, LineParser, check_same_log, complete_part, identity, sniff_format
 from .state import WatchState, default_state_path, set_aside
@@ -182,8 +182,7 @@ def watch(log: str, odds: str, *, state_path: str | None = None, once: bool = Fa
     signal (SIGINT/SIGTERM/SIGHUP), which ends the wait cleanly with the state saved (``stopped_by`` says which).
     Standard input is read to its end either way.
     """
-    if not 0 < alpha < 1:
-        raise InputError(f"--alpha must be between 0 and 1, got {alpha}", "", "e.g. --alpha 0.001")
+    check_alpha(alpha, 1.0)  # no middle grade here
     if not poll > 0:
         raise InputError(f"--poll must be a positive number of seconds, got {poll}", "", "e.g. --poll 1")
     mon = monitor_module or _monitor_module()
